@@ -1,0 +1,196 @@
+/**
+ * The scenario file: everything the simulator needs to close the acoustic loop, validated with zod.
+ * Field names are part of the file format users keep: add fields freely, rename none.
+ *
+ * Units: `amplitude` linear peak, `gain` linear, `bandHz` [low, high] in Hz, delays in ms (fractional
+ * delays allowed), `rms` linear RMS, levels in dBFS (RMS per AES17, peaks as sample peaks).
+ */
+import { z } from 'zod';
+import { buildPathResponse, DEFAULT_HALF_WIDTH, type SparseResponse } from './fractional-delay.ts';
+
+export const SCENARIO_SCHEMA_VERSION = 1;
+
+const finite = () => z.number({ error: 'must be a number' }).refine(Number.isFinite, 'must be finite');
+const num = (min: number, max: number, what = 'number') =>
+  z.number({ error: `must be a ${what} from ${min} to ${max}` }).min(min, `must be from ${min} to ${max}`).max(max, `must be from ${min} to ${max}`);
+const int = (min: number, max: number) =>
+  z.number({ error: `must be an integer from ${min} to ${max}` }).int(`must be an integer from ${min} to ${max}`).min(min, `must be an integer from ${min} to ${max}`).max(max, `must be an integer from ${min} to ${max}`);
+
+const toneSource = z.strictObject({
+  kind: z.literal('tone'),
+  hz: num(1, 96000, 'frequency in Hz'),
+  amplitude: num(0, 1e3),
+  driftHzPerS: finite().optional(),
+  phaseDeg: finite().optional(),
+});
+const harmonicsSource = z.strictObject({
+  kind: z.literal('harmonics'),
+  fundamentalHz: num(1, 96000, 'frequency in Hz'),
+  amplitudes: z.array(num(0, 1e3), { error: 'must be an array of linear peak amplitudes' }).min(1, 'needs at least one amplitude').max(64, 'at most 64 harmonics'),
+  driftHzPerS: finite().optional(),
+});
+const noiseSource = z.strictObject({
+  kind: z.literal('noise'),
+  color: z.enum(['white', 'pink', 'brown'], { error: 'must be "white", "pink" or "brown"' }),
+  rms: num(0, 1e3),
+  bandHz: z.tuple([num(0, 96000), num(0, 96000)], { error: 'must be [lowHz, highHz]' }).optional(),
+});
+const wavSource = z.strictObject({
+  kind: z.literal('wav'),
+  file: z.string({ error: 'must be a path (relative to the scenario file)' }).min(1, 'must not be empty'),
+  gain: num(0, 1e3).optional(),
+  channel: int(0, 255).optional(),
+  loop: z.boolean({ error: 'must be true or false' }).optional(),
+});
+
+export const sourceSchema = z.discriminatedUnion('kind', [toneSource, harmonicsSource, noiseSource, wavSource], {
+  error: (iss) => (iss.code === 'invalid_union' ? 'kind must be one of "tone", "harmonics", "noise", "wav"' : undefined),
+});
+
+export const pathSchema = z.strictObject({
+  delayMs: num(0, 10000, 'delay in ms (≥ 0)'),
+  gain: finite().optional(),
+  fir: z.array(finite(), { error: 'must be an array of FIR taps' }).min(1, 'needs at least one tap').max(1 << 20).optional(),
+});
+
+const explicitPaths = z.strictObject({
+  reference: pathSchema,
+  primary: pathSchema,
+  secondary: pathSchema,
+  feedback: pathSchema.optional(),
+});
+
+const sensorNoise = z.union([
+  num(0, 10),
+  z.strictObject({ reference: num(0, 10), error: num(0, 10) }),
+], { error: 'must be a number (RMS for both mics) or {reference, error}' });
+
+const modelFields = {
+  modelTaps: int(1, 1 << 20).optional(),
+  modelPhaseErrorDeg: num(-180, 180).optional(),
+  modelGainErrorDb: num(-60, 60).optional(),
+  modelFile: z.string().min(1).optional(),
+};
+
+const fxlmsController = z.strictObject({
+  algorithm: z.enum(['fxlms', 'fxnlms']),
+  taps: int(1, 65536),
+  stepSize: z.number({ error: 'must be a number > 0' }).positive('must be > 0').refine(Number.isFinite, 'must be finite'),
+  leakage: num(0, 1e6).optional(),
+  regularization: z.number().positive('must be > 0').optional(),
+  update: z.enum(['sample', 'block'], { error: 'must be "sample" or "block"' }).optional(),
+  ...modelFields,
+});
+
+export const controllerSchema = z.discriminatedUnion('algorithm', [fxlmsController], {
+  error: (iss) => (iss.code === 'invalid_union' ? 'algorithm must be one of "fxlms", "fxnlms"' : undefined),
+});
+
+export const scenarioSchema = z.strictObject({
+  schemaVersion: z.literal(SCENARIO_SCHEMA_VERSION, { error: `must be ${SCENARIO_SCHEMA_VERSION} (this version of ancbench reads scenario schema ${SCENARIO_SCHEMA_VERSION})` }),
+  name: z.string().optional(),
+  description: z.string().optional(),
+  sampleRate: int(8000, 192000),
+  blockSize: int(32, 4096).refine((b) => (b & (b - 1)) === 0, 'must be a power of two from 32 to 4096'),
+  durationS: num(0.01, 86400, 'duration in seconds'),
+  seed: int(0, 0xffffffff),
+  sources: z.array(sourceSchema, { error: 'must be an array of sources' }).min(1, 'needs at least one source'),
+  paths: explicitPaths,
+  sensorNoiseRms: sensorNoise.optional(),
+  controller: controllerSchema,
+  outputCeilingDbfs: num(-120, 0, 'level in dBFS (≤ 0)').optional(),
+  controlStartS: num(0, 86400).optional(),
+});
+
+export type Scenario = z.infer<typeof scenarioSchema>;
+export type SourceSpec = z.infer<typeof sourceSchema>;
+export type PathSpec = z.infer<typeof pathSchema>;
+export type ControllerSpec = z.infer<typeof controllerSchema>;
+
+/** A scenario that failed validation: one line per problem, each naming the field path. */
+export class ScenarioError extends Error {
+  constructor(readonly problems: string[]) {
+    super(`invalid scenario:\n  ${problems.join('\n  ')}`);
+    this.name = 'ScenarioError';
+  }
+}
+
+function fieldPath(path: readonly PropertyKey[]): string {
+  let s = '';
+  for (const p of path) s += typeof p === 'number' ? `[${p}]` : (s ? '.' : '') + String(p);
+  return s || '(top level)';
+}
+
+function show(v: unknown): string {
+  if (v === undefined) return 'nothing';
+  const j = JSON.stringify(v);
+  return j === undefined ? String(v) : j.length > 60 ? j.slice(0, 57) + '...' : j;
+}
+
+/**
+ * Validate a parsed JSON value as a scenario. Throws ScenarioError naming every bad field.
+ * Cross-field rules (frequencies below Nyquist, secondary and feedback delays of at least one
+ * block) are checked here too, since nothing may run on an invalid file.
+ */
+export function parseScenario(value: unknown): Scenario {
+  const r = scenarioSchema.safeParse(value, { reportInput: true });
+  if (!r.success) {
+    const problems = r.error.issues.map((iss) => {
+      const where = fieldPath(iss.path);
+      if (iss.code === 'unrecognized_keys') return `${where}: unknown field(s) ${iss.keys.map((k) => `"${k}"`).join(', ')}`;
+      const got = 'input' in iss ? `, got ${show(iss.input)}` : '';
+      return `${where}: ${iss.message}${got}`;
+    });
+    throw new ScenarioError(problems);
+  }
+  const s = r.data;
+  const problems: string[] = [];
+  const nyq = s.sampleRate / 2;
+  s.sources.forEach((src, i) => {
+    if (src.kind === 'tone') {
+      if (src.hz >= nyq) problems.push(`sources[${i}].hz: must be below the Nyquist frequency ${nyq} Hz, got ${src.hz}`);
+      const end = src.hz + (src.driftHzPerS ?? 0) * s.durationS;
+      if (end <= 0 || end >= nyq) problems.push(`sources[${i}].driftHzPerS: the tone would reach ${end.toFixed(1)} Hz by the end of the run, outside (0, ${nyq}) Hz`);
+    }
+    if (src.kind === 'harmonics') {
+      const top = src.fundamentalHz * src.amplitudes.length;
+      if (top >= nyq) problems.push(`sources[${i}].amplitudes: harmonic ${src.amplitudes.length} at ${top} Hz is above the Nyquist frequency ${nyq} Hz`);
+      const end = src.fundamentalHz + (src.driftHzPerS ?? 0) * s.durationS;
+      if (end <= 0 || end * src.amplitudes.length >= nyq) problems.push(`sources[${i}].driftHzPerS: the fundamental would reach ${end.toFixed(1)} Hz by the end of the run, taking a harmonic outside (0, ${nyq}) Hz`);
+    }
+    if (src.kind === 'noise' && src.bandHz) {
+      const [lo, hi] = src.bandHz;
+      if (!(lo < hi)) problems.push(`sources[${i}].bandHz: low edge must be below high edge, got [${lo}, ${hi}]`);
+      if (hi > nyq) problems.push(`sources[${i}].bandHz: high edge must be at most the Nyquist frequency ${nyq} Hz, got ${hi}`);
+    }
+  });
+  for (const key of ['secondary', 'feedback'] as const) {
+    const p = s.paths[key];
+    if (!p) continue;
+    const r = pathResponse(p, s.sampleRate);
+    if (r.taps.length > 0 && r.offset < s.blockSize) {
+      const fractional = !isIntegerDelay(p.delayMs, s.sampleRate);
+      problems.push(
+        `paths.${key}.delayMs: the path's first sample arrives after ${r.offset} samples (${((r.offset / s.sampleRate) * 1000).toFixed(3)} ms), ` +
+          `but the block loop needs at least one block, ${s.blockSize} samples (${((s.blockSize / s.sampleRate) * 1000).toFixed(3)} ms at ${s.sampleRate} Hz)` +
+          `${fractional ? `; a fractional delay also spreads ${DEFAULT_HALF_WIDTH - 1} samples early` : ''}; got ${p.delayMs} ms. ` +
+          `This path includes the audio I/O latency, which is never shorter than one block`,
+      );
+    }
+  }
+  if (s.controlStartS !== undefined && s.controlStartS >= s.durationS) {
+    problems.push(`controlStartS: must be before the end of the run (${s.durationS} s), got ${s.controlStartS}`);
+  }
+  if (problems.length) throw new ScenarioError(problems);
+  return s;
+}
+
+export function isIntegerDelay(delayMs: number, sampleRate: number): boolean {
+  const d = (delayMs / 1000) * sampleRate;
+  return Math.abs(d - Math.round(d)) < 1e-9;
+}
+
+/** A path's sparse impulse response at the scenario's sample rate: gain × (fir delayed by delayMs). */
+export function pathResponse(p: PathSpec, sampleRate: number): SparseResponse {
+  return buildPathResponse({ delaySamples: (p.delayMs / 1000) * sampleRate, gain: p.gain ?? 1, ...(p.fir ? { fir: p.fir } : {}) });
+}
