@@ -7,7 +7,7 @@
  * One pass computes both runs of the same seed: control off (error = disturbance + sensor noise) and
  * control on. Microphones clip at ±1 (full scale), as a converter would.
  */
-import { Engine, DEFAULT_CEILING_DBFS } from '../engine/engine.ts';
+import { Engine, DEFAULT_CEILING_DBFS, type EngineMode } from '../engine/engine.ts';
 import type { ControllerConfig } from '../engine/controller-factory.ts';
 import { Random } from '../dsp/random.ts';
 import { convergenceMetrics, type ConvergenceResult } from '../analysis/convergence.ts';
@@ -17,7 +17,7 @@ import { amplitudeToDb, powerToDbfs } from '../dsp/units.ts';
 import { denseResponse } from './fractional-delay.ts';
 import { PathFilter } from './path-filter.ts';
 import { pathResponse, type Scenario } from './scenario.ts';
-import { createSource, type WavTable } from './sources.ts';
+import { createSource, type SourceGenerator, type WavTable } from './sources.ts';
 import { imperfectModel } from './secondary-model.ts';
 
 export interface SimulateOptions {
@@ -91,50 +91,132 @@ export function trueSecondaryPath(sc: Scenario): Float64Array {
   return denseResponse(r);
 }
 
+/**
+ * The closed loop as a streaming object: each `step` advances one block and leaves the block's
+ * signals in preallocated arrays. The simulator and the simulated-plant worklet both drive it.
+ * `step` allocates nothing.
+ */
+export class PlantLoop {
+  readonly engine: Engine;
+  readonly sampleRate: number;
+  readonly blockSize: number;
+  readonly secondaryPathModel: Float32Array;
+  readonly trueSecondaryPath: Float64Array;
+  /** Signals of the last block (first n samples valid). */
+  readonly ref: Float32Array;
+  readonly refNoFeedback: Float32Array;
+  readonly errOn: Float32Array;
+  readonly errOff: Float32Array;
+  readonly out: Float32Array;
+  /** Samples simulated so far. */
+  time = 0;
+  clipRef = 0;
+  clipErr = 0;
+  nonFiniteErr = 0;
+  private readonly sources: SourceGenerator[];
+  private readonly refF: PathFilter;
+  private readonly priF: PathFilter;
+  private readonly secF: PathFilter;
+  private readonly fbF: PathFilter | null;
+  private readonly refNoiseRms: number;
+  private readonly errNoiseRms: number;
+  private readonly refNoise: Random;
+  private readonly errNoise: Random;
+  private readonly src: Float64Array;
+  private readonly refAc: Float64Array;
+  private readonly dAc: Float64Array;
+  private readonly loopAc: Float64Array;
+
+  constructor(sc: Scenario, opts: { wavs?: WavTable; secondaryPathModel?: Float32Array; startMode?: EngineMode } = {}) {
+    const fs = sc.sampleRate;
+    const B = sc.blockSize;
+    this.sampleRate = fs;
+    this.blockSize = B;
+    const wavs = opts.wavs ?? new Map();
+    this.sources = sc.sources.map((s, i) => createSource(s, i, fs, sc.seed, wavs));
+    const refR = dense(pathResponse(sc.paths.reference, fs));
+    const priR = dense(pathResponse(sc.paths.primary, fs));
+    const secR = dense(pathResponse(sc.paths.secondary, fs));
+    const fbR = sc.paths.feedback ? dense(pathResponse(sc.paths.feedback, fs)) : null;
+    this.refF = new PathFilter(refR.offset, refR.taps, B);
+    this.priF = new PathFilter(priR.offset, priR.taps, B);
+    this.secF = new PathFilter(secR.offset, secR.taps, B);
+    this.fbF = fbR ? new PathFilter(fbR.offset, fbR.taps, B) : null;
+    this.trueSecondaryPath = trueSecondaryPath(sc);
+    this.secondaryPathModel = opts.secondaryPathModel ?? imperfectModel(this.trueSecondaryPath, sc.controller);
+    this.engine = new Engine({
+      sampleRate: fs,
+      maxBlockSize: B,
+      controller: engineControllerConfig(sc),
+      secondaryPathModel: this.secondaryPathModel,
+      ceilingDbfs: sc.outputCeilingDbfs ?? DEFAULT_CEILING_DBFS,
+      startMode: opts.startMode ?? 'control',
+    });
+    const sn = sc.sensorNoiseRms;
+    this.refNoiseRms = typeof sn === 'number' ? sn : (sn?.reference ?? 0);
+    this.errNoiseRms = typeof sn === 'number' ? sn : (sn?.error ?? 0);
+    this.refNoise = new Random((sc.seed ^ 0x52454631) >>> 0);
+    this.errNoise = new Random((sc.seed ^ 0x45525231) >>> 0);
+    this.src = new Float64Array(B);
+    this.refAc = new Float64Array(B);
+    this.dAc = new Float64Array(B);
+    this.loopAc = new Float64Array(B);
+    this.ref = new Float32Array(B);
+    this.refNoFeedback = new Float32Array(B);
+    this.errOn = new Float32Array(B);
+    this.errOff = new Float32Array(B);
+    this.out = new Float32Array(B);
+  }
+
+  /** Advance n ≤ blockSize samples: sources, paths, microphones (clipped at ±1), engine, loudspeaker. */
+  step(n: number): void {
+    const t = this.time;
+    const { src, refAc, dAc, loopAc, ref, errOn, errOff, out, refNoFeedback } = this;
+    src.fill(0);
+    for (let k = 0; k < this.sources.length; k++) this.sources[k]!.addTo(src, n);
+    this.refF.push(src, n);
+    this.refF.render(t, refAc, n);
+    this.priF.push(src, n);
+    this.priF.render(t, dAc, n);
+    const fbF = this.fbF;
+    if (fbF) fbF.render(t, loopAc, n);
+    for (let i = 0; i < n; i++) {
+      const r0 = refAc[i]! + this.refNoiseRms * this.refNoise.gaussian();
+      let r = fbF ? r0 + loopAc[i]! : r0;
+      if (r > 1) { r = 1; this.clipRef++; } else if (r < -1) { r = -1; this.clipRef++; }
+      ref[i] = r;
+      refNoFeedback[i] = r0;
+    }
+    this.secF.render(t, loopAc, n);
+    for (let i = 0; i < n; i++) {
+      const d = dAc[i]! + this.errNoiseRms * this.errNoise.gaussian();
+      errOff[i] = d > 1 ? 1 : d < -1 ? -1 : d;
+      let on = d + loopAc[i]!;
+      if (on > 1) { on = 1; this.clipErr++; } else if (on < -1) { on = -1; this.clipErr++; } else if (on !== on) this.nonFiniteErr++;
+      errOn[i] = on;
+    }
+    this.engine.process(ref, errOn, out, n);
+    this.secF.push(out, n);
+    if (fbF) fbF.push(out, n);
+    this.time = t + n;
+  }
+}
+
 export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationResult {
   const fs = sc.sampleRate;
   const B = sc.blockSize;
   const total = Math.max(1, Math.round(sc.durationS * fs));
-  const wavs = opts.wavs ?? new Map();
-  const sources = sc.sources.map((s, i) => createSource(s, i, fs, sc.seed, wavs));
   const notes: Record<string, string> = {};
-
-  const refR = dense(pathResponse(sc.paths.reference, fs));
-  const priR = dense(pathResponse(sc.paths.primary, fs));
-  const secR = dense(pathResponse(sc.paths.secondary, fs));
-  const fbR = sc.paths.feedback ? dense(pathResponse(sc.paths.feedback, fs)) : null;
-  const refF = new PathFilter(refR.offset, refR.taps, B);
-  const priF = new PathFilter(priR.offset, priR.taps, B);
-  const secF = new PathFilter(secR.offset, secR.taps, B);
-  const fbF = fbR ? new PathFilter(fbR.offset, fbR.taps, B) : null;
-
-  const trueSec = trueSecondaryPath(sc);
-  const model = opts.secondaryPathModel ?? imperfectModel(trueSec, sc.controller);
   const controlStartS = sc.controlStartS ?? 0;
   const controlStartSample = Math.round(controlStartS * fs);
-  const engine = new Engine({
-    sampleRate: fs,
-    maxBlockSize: B,
-    controller: engineControllerConfig(sc),
-    secondaryPathModel: model,
-    ceilingDbfs: sc.outputCeilingDbfs ?? DEFAULT_CEILING_DBFS,
+  const loop = new PlantLoop(sc, {
+    ...(opts.wavs ? { wavs: opts.wavs } : {}),
+    ...(opts.secondaryPathModel ? { secondaryPathModel: opts.secondaryPathModel } : {}),
     startMode: controlStartSample === 0 ? 'control' : 'idle',
   });
-
-  const sn = sc.sensorNoiseRms;
-  const refNoiseRms = typeof sn === 'number' ? sn : (sn?.reference ?? 0);
-  const errNoiseRms = typeof sn === 'number' ? sn : (sn?.error ?? 0);
-  const refNoise = new Random((sc.seed ^ 0x52454631) >>> 0);
-  const errNoise = new Random((sc.seed ^ 0x45525231) >>> 0);
-
-  const src = new Float64Array(B);
-  const refAc = new Float64Array(B);
-  const dAc = new Float64Array(B);
-  const loopAc = new Float64Array(B);
-  const ref = new Float32Array(B);
-  const errOn = new Float32Array(B);
-  const errOff = new Float32Array(B);
-  const out = new Float32Array(B);
+  const engine = loop.engine;
+  const trueSec = loop.trueSecondaryPath;
+  const model = loop.secondaryPathModel;
 
   const hop = Math.max(1, Math.round(HOP_S * fs));
   const nh = Math.ceil(total / hop);
@@ -150,38 +232,13 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     ? { reference: new Float32Array(total), errorOn: new Float32Array(total), output: new Float32Array(total), errorOff: new Float32Array(total) }
     : undefined;
 
-  let clipRef = 0, clipErr = 0, nonFinite = 0, peakOut = 0;
+  let peakOut = 0;
   let lastProgress = -1;
+  const { ref, errOn, errOff, out, refNoFeedback } = loop;
   for (let t = 0; t < total; t += B) {
     const n = Math.min(B, total - t);
     if (t <= controlStartSample && controlStartSample < t + n && controlStartSample > 0) engine.setMode('control');
-    src.fill(0);
-    for (const s of sources) s.addTo(src, n);
-    refF.push(src, n);
-    refF.render(t, refAc, n);
-    priF.push(src, n);
-    priF.render(t, dAc, n);
-    if (fbF) fbF.render(t, loopAc, n);
-    for (let i = 0; i < n; i++) {
-      const r0 = refAc[i]! + refNoiseRms * refNoise.gaussian();
-      let r = fbF ? r0 + loopAc[i]! : r0;
-      if (r > 1) { r = 1; clipRef++; } else if (r < -1) { r = -1; clipRef++; }
-      ref[i] = r;
-      if (t + i < wienerN) wRef[t + i] = r0;
-    }
-    secF.render(t, loopAc, n);
-    for (let i = 0; i < n; i++) {
-      const d = dAc[i]! + errNoiseRms * errNoise.gaussian();
-      const off = d > 1 ? 1 : d < -1 ? -1 : d;
-      let on = d + loopAc[i]!;
-      if (on > 1) { on = 1; clipErr++; } else if (on < -1) { on = -1; clipErr++; } else if (on !== on) nonFinite++;
-      errOff[i] = off;
-      errOn[i] = on;
-      if (t + i < wienerN) wErr[t + i] = off;
-    }
-    engine.process(ref, errOn, out, n);
-    secF.push(out, n);
-    if (fbF) fbF.push(out, n);
+    loop.step(n);
     for (let i = 0; i < n; i++) {
       const ti = t + i;
       const h = (ti / hop) | 0;
@@ -191,6 +248,10 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
       hopCount[h] = hopCount[h]! + 1;
       const a = Math.abs(out[i]!);
       if (a > peakOut) peakOut = a;
+      if (ti < wienerN) {
+        wRef[ti] = refNoFeedback[i]!;
+        wErr[ti] = eo;
+      }
       if (rec) {
         rec.reference[ti] = ref[i]!;
         rec.errorOn[ti] = en;
@@ -206,6 +267,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
       }
     }
   }
+  const clipRef = loop.clipRef, clipErr = loop.clipErr, nonFinite = loop.nonFiniteErr;
 
   const conv: ConvergenceResult = convergenceMetrics({ hop, sampleRate: fs, off: hopOff, on: hopOn, counts: hopCount }, { controlStartS });
   const divergenceReasons: string[] = [];
@@ -228,6 +290,12 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     if (!wb) notes.wienerBoundDb = 'the correlation matrix of the filtered reference is singular, or the run is shorter than 2 × taps';
     else if (!Number.isFinite(wb.attenuationDb)) notes.wienerBoundDb = 'unbounded: the disturbance is perfectly predictable (add sensor noise for a finite bound)';
     else wienerBoundDb = wb.attenuationDb;
+  }
+  if (wienerBoundDb !== null && attenuationDb !== null && attenuationDb > wienerBoundDb + 1) {
+    notes.wienerBoundExceeded =
+      'the adaptive controller beat the best fixed filter of the same length: with a tonal reference an LMS filter acts as a ' +
+      'time-varying notch narrower than any fixed L-tap filter (a non-Wiener effect; Glover, IEEE TASSP 25(6), 1977, from memory). ' +
+      'More taps or less reference noise bring the two together';
   }
   if (!stationary) notes.wienerBound = 'the scenario is not stationary (drifting tone or recorded source): the Wiener figure is the best fixed filter over the run, not a bound on an adaptive one';
   if (clipRef || clipErr) notes.clipping = `microphone signals clipped at full scale: ${clipRef} reference and ${clipErr} error samples`;
