@@ -5,10 +5,10 @@
  * With r = s * x the filtered reference and d the control-off error signal, the error is
  * e = d + wᵀr(n). Minimising E[e²] gives the normal equations R·w = −p, with
  *   R_k = E[r(n)·r(n − k)]   (Toeplitz, k = 0 … L − 1),   p_k = E[d(n)·r(n − k)],
- * and the least error power E_min = E[d²] + pᵀw = E[d²] − pᵀR⁻¹p (Widrow & Stearns, *Adaptive Signal
+ * and the least error power E_min = E[d²] − pᵀR⁻¹p (Widrow & Stearns, *Adaptive Signal
  * Processing*, 1985; Elliott, *Signal Processing for Active Control*, 2001, ch. 3). Correlations are the
  * biased estimates (divided by N), computed by FFT, so R is positive semi-definite; the system is
- * solved by the Levinson recursion.
+ * solved by the Levinson recursion, and E_min is then measured by running the optimal filter on the data.
  */
 import { fftConvolve } from './fft.ts';
 import { solveToeplitz } from './toeplitz.ts';
@@ -52,11 +52,16 @@ export function wienerBound(d: ArrayLike<number>, filteredReference: ArrayLike<n
   R[0] = R[0]! * (1 + 1e-9) + 1e-30;
   const w = solveToeplitz(R, p);
   if (!w) return null;
-  let pw = 0;
-  for (let k = 0; k < taps; k++) {
-    w[k] = -w[k]!;
-    pw += p[k]! * w[k]!;
+  for (let k = 0; k < taps; k++) w[k] = -w[k]!;
+  // The error power of the filter found is measured by running it on the data, e = d + w * r, rather
+  // than from E[d²] + wᵀp: the Toeplitz (autocorrelation-method) quadratic form carries edge terms of
+  // relative size ~L/N, which swamp the least error when the attenuation is high (40 dB and more).
+  const y = fftConvolve(filteredReference, w);
+  let ee = 0;
+  for (let i = 0; i < N; i++) {
+    const e = d[i]! + y[i]!;
+    ee += e * e;
   }
-  const emin = Math.max(ed + pw, ed * 1e-15);
+  const emin = Math.max(ee / N, ed * 1e-15);
   return { errorPower: ed, minErrorPower: emin, attenuationDb: 10 * Math.log10(ed / emin), weights: w };
 }

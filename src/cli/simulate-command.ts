@@ -1,0 +1,136 @@
+/**
+ * `ancbench simulate <scenario.json> [--out DIR] [--json]`: run the closed loop on a scenario with
+ * control off and on, and report attenuation, convergence, the Wiener bound, peak output, divergence.
+ */
+import { parseArgs } from 'node:util';
+import { loadScenarioFile } from '../io/scenario-file-node.ts';
+import { writeOutputs } from '../io/files-node.ts';
+import { encodeWavFloat32 } from '../io/wav.ts';
+import { simulate, type SimulationResult } from '../plant/simulate.ts';
+import { fmtDb, safeJson, stamp, UsageError, type Stamp } from './common.ts';
+import { progressBar } from './progress.ts';
+
+export const SIMULATE_USAGE = `usage: ancbench simulate <scenario.json> [--out DIR] [--json]
+
+Runs the scenario's closed loop twice with the same seed (control off, control on) and reports:
+steady-state attenuation at the error mic (last 25 % of the run), convergence time, the Wiener
+bound for a filter of the same length, peak output level, and whether the controller diverged.
+
+  --out DIR   also write DIR/summary.json, DIR/attenuation.csv and DIR/signals.wav
+              (float32, 4 channels: reference, error with control on, controller output,
+              error with control off)
+  --json      print one JSON object on stdout instead of the readable summary
+  -h, --help  this text`;
+
+export interface SimulateSummary {
+  scenario: string;
+  name: string | null;
+  algorithm: string;
+  sampleRate: number;
+  durationS: number;
+  attenuationDb: number | null;
+  convergenceS: number | null;
+  wienerBoundDb: number | null;
+  wienerBoundIsBound: boolean;
+  peakOutputDbfs: number | null;
+  outputCeilingDbfs: number;
+  diverged: boolean;
+  divergenceReasons: string[];
+  errorOffDbfs: number | null;
+  errorOnDbfs: number | null;
+  clipping: { referenceSamples: number; errorSamples: number };
+  notes: Record<string, string>;
+  stamp: Stamp;
+}
+
+export function summarize(path: string, r: SimulationResult, st: Stamp, name: string | undefined, ceilingDbfs: number): SimulateSummary {
+  return {
+    scenario: path,
+    name: name ?? null,
+    algorithm: r.algorithm,
+    sampleRate: r.sampleRate,
+    durationS: r.durationS,
+    attenuationDb: r.attenuationDb,
+    convergenceS: r.convergenceS,
+    wienerBoundDb: r.wienerBoundDb,
+    wienerBoundIsBound: r.wienerBoundIsBound,
+    peakOutputDbfs: r.peakOutputDbfs,
+    outputCeilingDbfs: ceilingDbfs,
+    diverged: r.diverged,
+    divergenceReasons: r.divergenceReasons,
+    errorOffDbfs: r.errorOffDbfs,
+    errorOnDbfs: r.errorOnDbfs,
+    clipping: r.clipping,
+    notes: r.convergenceS === null ? { ...r.notes, convergenceS: 'the trailing 100 ms attenuation never settled within 3 dB of its steady-state value' } : r.notes,
+    stamp: st,
+  };
+}
+
+export function attenuationCsv(r: SimulationResult): string {
+  const rows = ['time_s,error_off_dbfs,error_on_dbfs,attenuation_db'];
+  const t = r.timeline;
+  const f = (v: number): string => (Number.isFinite(v) ? v.toFixed(3) : '');
+  for (let i = 0; i < t.timeS.length; i++) rows.push(`${t.timeS[i]!.toFixed(3)},${f(t.offDbfs[i]!)},${f(t.onDbfs[i]!)},${f(t.attenuationDb[i]!)}`);
+  return rows.join('\n') + '\n';
+}
+
+export function readableSummary(s: SimulateSummary): string {
+  const lines = [
+    `scenario      ${s.scenario}${s.name ? `  (${s.name})` : ''}`,
+    `controller    ${s.algorithm}, ${s.sampleRate} Hz, ${s.durationS.toFixed(2)} s`,
+    `attenuation   ${fmtDb(s.attenuationDb)}  (error mic, last 25 % of the run, unweighted)`,
+    `error level   ${s.errorOffDbfs === null ? 'n/a' : s.errorOffDbfs.toFixed(1)} dBFS off → ${s.errorOnDbfs === null ? 'n/a' : s.errorOnDbfs.toFixed(1)} dBFS on`,
+    `convergence   ${s.convergenceS === null ? 'not reached' : `${s.convergenceS.toFixed(2)} s`}`,
+    `Wiener bound  ${fmtDb(s.wienerBoundDb)}${s.wienerBoundIsBound ? '' : '  (not a bound: the scenario is not stationary)'}`,
+    `peak output   ${s.peakOutputDbfs === null ? 'n/a' : `${s.peakOutputDbfs.toFixed(1)} dBFS`}  (ceiling ${s.outputCeilingDbfs} dBFS)`,
+    `diverged      ${s.diverged ? `YES: ${s.divergenceReasons.join('; ')}` : 'no'}`,
+  ];
+  for (const [k, v] of Object.entries(s.notes)) lines.push(`note          ${k}: ${v}`);
+  return lines.join('\n');
+}
+
+export async function simulateCommand(argv: string[]): Promise<number> {
+  const { values, positionals } = parseArgsOrThrow(argv);
+  if (values.help) {
+    process.stdout.write(SIMULATE_USAGE + '\n');
+    return 0;
+  }
+  if (positionals.length !== 1) throw new UsageError(`simulate takes exactly one scenario file, got ${positionals.length}\n\n${SIMULATE_USAGE}`);
+  const path = positionals[0]!;
+  const loaded = loadScenarioFile(path);
+  const sc = loaded.scenario;
+  const bar = progressBar('simulating');
+  let r: SimulationResult;
+  try {
+    r = simulate(sc, { wavs: loaded.wavs, record: Boolean(values.out), onProgress: (f) => bar.update(f) });
+  } finally {
+    bar.stop();
+  }
+  const summary = summarize(path, r, stamp('simulate', sc.seed, loaded.sha256), sc.name, sc.outputCeilingDbfs ?? -6);
+  if (values.out) {
+    const sig = r.signals!;
+    writeOutputs(values.out, [
+      { name: 'summary.json', data: safeJson(summary) + '\n' },
+      { name: 'attenuation.csv', data: attenuationCsv(r) },
+      { name: 'signals.wav', data: encodeWavFloat32([sig.reference, sig.errorOn, sig.output, sig.errorOff], r.sampleRate) },
+    ]);
+  }
+  if (values.json) process.stdout.write(safeJson(summary, 0) + '\n');
+  else {
+    process.stdout.write(readableSummary(summary) + '\n');
+    if (values.out) process.stdout.write(`wrote         ${values.out}/summary.json, attenuation.csv, signals.wav\n`);
+  }
+  return 0;
+}
+
+function parseArgsOrThrow(argv: string[]) {
+  try {
+    return parseArgs({
+      args: argv,
+      allowPositionals: true,
+      options: { out: { type: 'string' }, json: { type: 'boolean' }, help: { type: 'boolean', short: 'h' } },
+    });
+  } catch (e) {
+    throw new UsageError(`${(e as Error).message}\n\n${SIMULATE_USAGE}`);
+  }
+}

@@ -1,0 +1,54 @@
+/**
+ * Load a scenario file for the CLI: read and parse the JSON, validate it, decode the WAV sources it
+ * names (paths relative to the scenario file) and hash it for the reproducibility stamp.
+ */
+import { createHash } from 'node:crypto';
+import { resolve } from 'node:path';
+import { parseScenario, type Scenario } from '../plant/scenario.ts';
+import { baseDirOf, InputError, readBytes } from './files-node.ts';
+import { decodeWav, WavError } from './wav.ts';
+
+export interface LoadedScenario {
+  path: string;
+  scenario: Scenario;
+  wavs: Map<string, Float32Array>;
+  /** SHA-256 of the file's bytes, hex. */
+  sha256: string;
+}
+
+export function loadScenarioFile(path: string): LoadedScenario {
+  const bytes = readBytes(path, 'scenario file');
+  let json: unknown;
+  try {
+    json = JSON.parse(new TextDecoder().decode(bytes));
+  } catch (e) {
+    throw new InputError(`scenario file "${path}" is not valid JSON: ${(e as Error).message}`);
+  }
+  const scenario = parseScenario(json);
+  const base = baseDirOf(path);
+  const wavs = new Map<string, Float32Array>();
+  const problems: string[] = [];
+  scenario.sources.forEach((s, i) => {
+    if (s.kind !== 'wav') return;
+    const file = resolve(base, s.file);
+    try {
+      const w = decodeWav(readBytes(file, `sources[${i}].file`), `sources[${i}].file "${s.file}"`);
+      if (w.sampleRate !== scenario.sampleRate) {
+        problems.push(`sources[${i}].file: "${s.file}" has a sample rate of ${w.sampleRate} Hz but the scenario runs at ${scenario.sampleRate} Hz; resample the file or change sampleRate`);
+        return;
+      }
+      const ch = s.channel ?? 0;
+      if (ch >= w.channels.length) {
+        problems.push(`sources[${i}].channel: "${s.file}" has ${w.channels.length} channel(s), counted from 0; got ${ch}`);
+        return;
+      }
+      wavs.set(s.file, w.channels[ch]!);
+    } catch (e) {
+      if (e instanceof WavError || e instanceof InputError) problems.push(e.message);
+      else throw e;
+    }
+  });
+  if (problems.length) throw new InputError(`invalid scenario "${path}":\n  ${problems.join('\n  ')}`);
+  const sha256 = createHash('sha256').update(bytes).digest('hex');
+  return { path, scenario, wavs, sha256 };
+}
