@@ -1,0 +1,49 @@
+/**
+ * Complex frequency response of an FIR model (a secondary-path model, for instance) at one frequency.
+ *
+ * The response is the discrete-time Fourier transform of the taps,
+ *
+ *     S(ω) = Σ_{m=0}^{M−1} s_m · e^{−jωm},   ω in rad/sample,
+ *
+ * evaluated by Horner's rule in z⁻¹ = e^{−jω}: acc ← acc·z⁻¹ + s_m from the last tap down to the
+ * first. That costs one complex multiply-add per tap and two trigonometric calls in all, so a
+ * controller can afford it once per block and per harmonic (O(M)). No allocation: the result is
+ * written into a caller-owned array.
+ */
+
+/**
+ * Write S(ω) of `model` (taps s_0 … s_{M−1}) into `out[offset]` (real part) and `out[offset + 1]`
+ * (imaginary part). `omegaRadPerSample` may be any finite number (the response is 2π-periodic).
+ * Only the first `length` taps are used (default: all).
+ */
+export function pathResponseAt(
+  model: ArrayLike<number>,
+  omegaRadPerSample: number,
+  out: Float64Array,
+  offset = 0,
+  length = model.length,
+): void {
+  const zr = Math.cos(omegaRadPerSample);
+  const zi = -Math.sin(omegaRadPerSample);
+  let ar = 0;
+  let ai = 0;
+  for (let m = length - 1; m >= 0; m--) {
+    const tr = ar * zr - ai * zi;
+    const ti = ar * zi + ai * zr;
+    ar = tr + model[m]!;
+    ai = ti;
+  }
+  out[offset] = ar;
+  out[offset + 1] = ai;
+}
+
+/** S at a frequency in Hz for a given sample rate (Hz); same output convention as `pathResponseAt`. */
+export function pathResponseAtHz(
+  model: ArrayLike<number>,
+  frequencyHz: number,
+  sampleRate: number,
+  out: Float64Array,
+  offset = 0,
+): void {
+  pathResponseAt(model, (2 * Math.PI * frequencyHz) / sampleRate, out, offset);
+}
