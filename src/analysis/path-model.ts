@@ -204,3 +204,40 @@ export function summarizePathModel(taps: ArrayLike<number>, sampleRate: number, 
     response: pathFrequencyResponse(taps, sampleRate, fftSize),
   };
 }
+
+/**
+ * Resample an impulse response from `fromHz` to `toHz` by band-limited interpolation: the response is treated as
+ * samples of a continuous response band-limited to fc = min(fromHz, toHz)/2, evaluated at the new instants:
+ *
+ *   h'[m] = Σ_n h[n] · (2·fc/toHz) · sinc(2·fc·(m/toHz − n/fromHz)) · w(m/toHz − n/fromHz),
+ *
+ * w a Hann window over ±16 periods of 2·fc (the windowed-sinc idea of the plant's fractional delays). The path's
+ * gain and its delay in seconds are kept below about 0.9·fc (the window rolls off the last part of the band);
+ * content above fc is lost when going down in rate. The output spans the input's duration plus the kernel's tail;
+ * the kernel's ringing before t = 0 is dropped, which costs nothing when the path's bulk delay exceeds 8/fc.
+ */
+export function resampleImpulseResponse(taps: ArrayLike<number>, fromHz: number, toHz: number): Float64Array {
+  checkTaps(taps);
+  checkSampleRate(fromHz);
+  checkSampleRate(toHz);
+  if (fromHz === toHz) return Float64Array.from(taps);
+  const fc = Math.min(fromHz, toHz) / 2;
+  const halfWidthS = 16 / (2 * fc);
+  const length = Math.ceil(((taps.length - 1) / fromHz + halfWidthS) * toHz) + 1;
+  const out = new Float64Array(length);
+  const scale = (2 * fc) / toHz;
+  for (let m = 0; m < length; m++) {
+    const t = m / toHz;
+    const nLo = Math.max(0, Math.ceil((t - halfWidthS) * fromHz));
+    const nHi = Math.min(taps.length - 1, Math.floor((t + halfWidthS) * fromHz));
+    let acc = 0;
+    for (let n = nLo; n <= nHi; n++) {
+      const dt = t - n / fromHz;
+      const x = Math.PI * 2 * fc * dt;
+      const sinc = x === 0 ? 1 : Math.sin(x) / x;
+      acc += taps[n]! * sinc * 0.5 * (1 + Math.cos((Math.PI * dt) / halfWidthS));
+    }
+    out[m] = scale * acc;
+  }
+  return out;
+}
