@@ -38,6 +38,11 @@ describe('schroederDecayDb', () => {
     expect(decay[0]).toBe(0);
     expectClose(decay[150]! - decay[300]!, 30, 0.05, 'decay over 0.15 s');
   });
+
+  it('should refuse a T30 fit when the decay never falls 35 dB', () => {
+    const h = new Float64Array(100).map((_, n) => Math.exp(-n / 100));
+    expect(() => reverberationTime(h, 1000, 'T30')).toThrow(/-35 dB/);
+  });
 });
 
 describe('roomImpulseResponse', () => {
@@ -154,6 +159,16 @@ describe('roomImpulseResponse', () => {
     expect(() => roomImpulseResponse({ ...base, dimensionsM: [5, -4, 3] })).toThrow(/dimensionsM\[1\]/);
     expect(() => roomImpulseResponse({ ...base, maxOrder: 1.5 })).toThrow(/maxOrder/);
     expect(() => roomImpulseResponse({ ...base, highPassHz: 5000 })).toThrow(/highPassHz/);
+  });
+
+  it('should cut the default length where the image count reaches maxImages in a very live room', () => {
+    // Images fill space at one per room volume, so N(t) = (4/3)·π·(c·t)³/V reaches maxImages = 1e4 at
+    // t = ∛(3·1e4·V/(4π))/c: 2×2×2 m → 26.7 ms, far below this room's Sabine T60 of 5.4 s.
+    const room = { dimensionsM: [2, 2, 2] as const, absorption: 0.01 };
+    const t = Math.cbrt((3 * 1e4 * 8) / (4 * Math.PI)) / 343;
+    const ir = roomImpulseResponse({ ...room, source: [0.5, 0.5, 0.5], receiver: [1.5, 1.2, 1], sampleRate: 8000, maxImages: 1e4 });
+    expect(ir.length).toBe(Math.ceil(t * 8000));
+    expect(sabineT60(room)).toBeGreaterThan(5);
   });
 
   it('should bound the default length by the Sabine T60', () => {
