@@ -50,18 +50,48 @@ export function wienerBound(d: ArrayLike<number>, filteredReference: ArrayLike<n
   const p = crossCorrelation(d, filteredReference, taps);
   // a whisper of diagonal loading keeps the recursion stable on rank-deficient (pure-tone) data
   R[0] = R[0]! * (1 + 1e-9) + 1e-30;
-  const w = solveToeplitz(R, p);
+  const w = solveToeplitzRefined(R, p);
   if (!w) return null;
   for (let k = 0; k < taps; k++) w[k] = -w[k]!;
   // The error power of the filter found is measured by running it on the data, e = d + w * r, rather
   // than from E[d²] + wᵀp: the Toeplitz (autocorrelation-method) quadratic form carries edge terms of
   // relative size ~L/N, which swamp the least error when the attenuation is high (40 dB and more).
+  // The first samples are left out of that measurement (and of E[d²] beside it): there the filter's
+  // delay line and the paths are still filling, and with a tonal disturbance cancelled down to a low
+  // noise floor that start-up transient alone would dominate the error.
   const y = fftConvolve(filteredReference, w);
+  const skip = Math.min(Math.floor(N / 4), taps + Math.floor(N / 20));
   let ee = 0;
-  for (let i = 0; i < N; i++) {
+  let ed2 = 0;
+  for (let i = skip; i < N; i++) {
     const e = d[i]! + y[i]!;
     ee += e * e;
+    ed2 += d[i]! * d[i]!;
   }
-  const emin = Math.max(ee / N, ed * 1e-15);
+  const emin = Math.max(ee / (N - skip), ed * 1e-15);
+  ed = ed2 / (N - skip);
   return { errorPower: ed, minErrorPower: emin, attenuationDb: 10 * Math.log10(ed / emin), weights: w };
+}
+
+/**
+ * Levinson solve followed by iterative refinement (Wilkinson; Golub & Van Loan §3.5.3): the residual
+ * b − T·x is computed with an exact Toeplitz product and solved again. Narrowband references make T
+ * nearly singular, where the plain recursion loses digits; a few refinement steps recover them.
+ */
+export function solveToeplitzRefined(r: ArrayLike<number>, b: ArrayLike<number>, steps = 4): Float64Array | null {
+  const n = b.length;
+  const x = solveToeplitz(r, b);
+  if (!x) return null;
+  const res = new Float64Array(n);
+  for (let it = 0; it < steps; it++) {
+    for (let i = 0; i < n; i++) {
+      let acc = 0;
+      for (let j = 0; j < n; j++) acc += r[i > j ? i - j : j - i]! * x[j]!;
+      res[i] = b[i]! - acc;
+    }
+    const dx = solveToeplitz(r, res);
+    if (!dx) break;
+    for (let i = 0; i < n; i++) x[i] = x[i]! + dx[i]!;
+  }
+  return x;
 }

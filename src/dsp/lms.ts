@@ -113,3 +113,54 @@ export class LmsFilter {
     return n;
   }
 }
+
+/**
+ * Adaptive linear combiner: y = wᵀx for an arbitrary input vector x (not a delay line), with the
+ * same Haykin-convention LMS update w ← (1 − μγ)·w + μ·e·x (Widrow & Stearns, *Adaptive Signal
+ * Processing*, 1985, ch. 2). Used for quadrature (cos, sin) references.
+ */
+export class LmsCombiner {
+  readonly size: number;
+  stepSize: number;
+  leakage: number;
+  private readonly w: Float64Array;
+  private readonly x: Float64Array;
+
+  constructor(size: number, stepSize: number, leakage = 0) {
+    if (!Number.isInteger(size) || size < 1) throw new RangeError(`size must be an integer ≥ 1, got ${size}`);
+    if (!(stepSize > 0)) throw new RangeError(`stepSize must be > 0, got ${stepSize}`);
+    if (!(leakage >= 0)) throw new RangeError(`leakage must be ≥ 0, got ${leakage}`);
+    this.size = size;
+    this.stepSize = stepSize;
+    this.leakage = leakage;
+    this.w = new Float64Array(size);
+    this.x = new Float64Array(size);
+  }
+
+  reset(): void {
+    this.w.fill(0);
+    this.x.fill(0);
+  }
+
+  /** Set the input vector (copied) and return y = wᵀx. */
+  filter(x: ArrayLike<number>): number {
+    let y = 0;
+    for (let i = 0; i < this.size; i++) {
+      const v = x[i]!;
+      this.x[i] = v;
+      y += this.w[i]! * v;
+    }
+    return y;
+  }
+
+  /** One update with e = d − y and the last input vector. */
+  adapt(e: number): void {
+    const g = this.stepSize * e;
+    const leak = 1 - this.stepSize * this.leakage;
+    for (let i = 0; i < this.size; i++) this.w[i] = leak * this.w[i]! + g * this.x[i]!;
+  }
+
+  weight(i: number): number {
+    return this.w[i]!;
+  }
+}

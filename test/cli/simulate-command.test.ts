@@ -1,0 +1,131 @@
+import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
+import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync, existsSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { main } from '../../src/cli/main.ts';
+import { decodeWav, encodeWavInt16 } from '../../src/io/wav.ts';
+
+let dir: string;
+let out: string[];
+let err: string[];
+
+beforeEach(() => {
+  dir = mkdtempSync(join(tmpdir(), 'ancbench-cli-'));
+  out = [];
+  err = [];
+  vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => (out.push(String(s)), true));
+  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => (err.push(String(s)), true));
+});
+afterEach(() => {
+  vi.restoreAllMocks();
+  rmSync(dir, { recursive: true, force: true });
+});
+
+const good = {
+  schemaVersion: 1,
+  sampleRate: 8000,
+  blockSize: 32,
+  durationS: 1,
+  seed: 1,
+  sources: [{ kind: 'tone', hz: 100, amplitude: 0.3 }],
+  paths: { reference: { delayMs: 0 }, primary: { delayMs: 10, gain: 0.5 }, secondary: { delayMs: 5, gain: 0.8 } },
+  sensorNoiseRms: 0.001,
+  controller: { algorithm: 'fxnlms', taps: 16, stepSize: 0.01 },
+};
+
+function scenarioFile(value: unknown, name = 's.json'): string {
+  const p = join(dir, name);
+  writeFileSync(p, typeof value === 'string' ? value : JSON.stringify(value));
+  return p;
+}
+
+describe('ancbench simulate', () => {
+  describe('with a valid scenario', () => {
+    it('should print one JSON object with the documented keys', async () => {
+      const code = await main(['simulate', scenarioFile(good), '--json']);
+      expect(code).toBe(0);
+      const j = JSON.parse(out.join(''));
+      for (const k of ['attenuationDb', 'convergenceS', 'wienerBoundDb', 'peakOutputDbfs', 'diverged']) expect(j).toHaveProperty(k);
+      expect(j.stamp).toMatchObject({ tool: 'ancbench', schemaVersion: 1, seed: 1 });
+      expect(j.stamp.scenarioSha256).toMatch(/^[0-9a-f]{64}$/);
+      expect(j.attenuationDb).toBeGreaterThan(10);
+    });
+
+    it('should write summary, CSV and a four-channel float WAV with --out', async () => {
+      const o = join(dir, 'out');
+      expect(await main(['simulate', scenarioFile(good), '--out', o])).toBe(0);
+      expect(readdirSync(o).sort()).toEqual(['attenuation.csv', 'signals.wav', 'summary.json']);
+      const w = decodeWav(new Uint8Array(readFileSync(join(o, 'signals.wav'))));
+      expect(w.channels.length).toBe(4);
+      expect(w.bitDepth).toBe('32f');
+      expect(w.channels[0]!.length).toBe(8000);
+      const csv = readFileSync(join(o, 'attenuation.csv'), 'utf8').split('\n');
+      expect(csv[0]).toBe('time_s,error_off_dbfs,error_on_dbfs,attenuation_db');
+    });
+
+    it('should play a WAV source given relative to the scenario file', async () => {
+      const tone = new Float32Array(8000).map((_, i) => 0.2 * Math.sin((2 * Math.PI * 80 * i) / 8000));
+      writeFileSync(join(dir, 'hum.wav'), encodeWavInt16([tone], 8000));
+      const code = await main(['simulate', scenarioFile({ ...good, sources: [{ kind: 'wav', file: 'hum.wav', loop: true }] }), '--json']);
+      expect(code).toBe(0);
+      expect(JSON.parse(out.join('')).attenuationDb).toBeGreaterThan(10);
+    });
+  });
+
+  describe('with bad input', () => {
+    const cases: [string, unknown, RegExp][] = [
+      ['a missing field', { ...good, sampleRate: undefined }, /sampleRate: must be an integer from 8000 to 192000, got nothing/],
+      ['a wrong type', { ...good, durationS: 'long' }, /durationS: must be a duration in seconds from 0\.01 to 86400, got "long"/],
+      ['a negative delay', { ...good, paths: { ...good.paths, primary: { delayMs: -1 } } }, /paths\.primary\.delayMs: must be from 0 to 10000, got -1/],
+      ['an unknown source kind', { ...good, sources: [{ kind: 'siren', hz: 5 }] }, /sources\[0\]\.kind: kind must be one of "tone", "harmonics", "noise", "wav"/],
+      ['an unknown field', { ...good, stepsize: 1 }, /unknown field\(s\) "stepsize"/],
+      ['a block size that is not a power of two', { ...good, blockSize: 100 }, /blockSize: must be a power of two/],
+      ['a missing WAV file', { ...good, sources: [{ kind: 'wav', file: 'nope.wav' }] }, /sources\[0\]\.file "?.*nope\.wav"? does not exist/],
+      ['not JSON at all', '{ "schemaVersion": 1, ', /is not valid JSON/],
+    ];
+    for (const [what, value, message] of cases) {
+      it(`should name the problem for ${what}, exit non-zero and write nothing`, async () => {
+        const o = join(dir, 'out');
+        const code = await main(['simulate', scenarioFile(value), '--out', o]);
+        expect(code).not.toBe(0);
+        expect(err.join('')).toMatch(message);
+        expect(existsSync(o)).toBe(false);
+        expect(out.join('')).toBe('');
+      });
+    }
+
+    it('should refuse an unreadable (damaged) WAV with a clear message', async () => {
+      writeFileSync(join(dir, 'bad.wav'), 'RIFF\x10\x00\x00\x00WAVEjunkjunk');
+      const code = await main(['simulate', scenarioFile({ ...good, sources: [{ kind: 'wav', file: 'bad.wav' }] })]);
+      expect(code).toBe(1);
+      expect(err.join('')).toMatch(/bad\.wav.*(no "fmt " chunk|not a valid WAV)/);
+    });
+
+    it('should refuse a WAV at another sample rate, naming both rates', async () => {
+      writeFileSync(join(dir, 'fast.wav'), encodeWavInt16([new Float32Array(100)], 44100));
+      const code = await main(['simulate', scenarioFile({ ...good, sources: [{ kind: 'wav', file: 'fast.wav' }] })]);
+      expect(code).toBe(1);
+      expect(err.join('')).toMatch(/44100 Hz but the scenario runs at 8000 Hz/);
+    });
+
+    it('should refuse an unknown option with the usage text', async () => {
+      const code = await main(['simulate', scenarioFile(good), '--frobnicate']);
+      expect(code).toBe(2);
+      expect(err.join('')).toMatch(/Unknown option '--frobnicate'[\s\S]*usage: ancbench simulate/);
+    });
+
+    it('should refuse a file that does not exist', async () => {
+      expect(await main(['simulate', join(dir, 'missing.json')])).toBe(1);
+      expect(err.join('')).toMatch(/scenario file ".*missing\.json" does not exist/);
+    });
+
+    it('should leave an existing output folder as it was when a run fails', async () => {
+      const o = join(dir, 'keep');
+      expect(await main(['simulate', scenarioFile(good), '--out', o])).toBe(0);
+      const before = readFileSync(join(o, 'summary.json'), 'utf8');
+      expect(await main(['simulate', scenarioFile({ ...good, seed: -1 }), '--out', o])).toBe(1);
+      expect(readFileSync(join(o, 'summary.json'), 'utf8')).toBe(before);
+      expect(readdirSync(o).filter((f) => f.startsWith('.'))).toEqual([]);
+    });
+  });
+});
