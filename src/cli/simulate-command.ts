@@ -102,7 +102,12 @@ export async function simulateCommand(argv: string[]): Promise<number> {
   const bar = progressBar('simulating');
   let r: SimulationResult;
   try {
-    r = simulate(sc, { wavs: loaded.wavs, record: Boolean(values.out), onProgress: (f) => bar.update(f) });
+    r = simulate(sc, {
+      wavs: loaded.wavs,
+      record: Boolean(values.out),
+      onProgress: (f) => bar.update(f),
+      ...(loaded.secondaryPathModel ? { secondaryPathModel: loaded.secondaryPathModel } : {}),
+    });
   } finally {
     bar.stop();
   }

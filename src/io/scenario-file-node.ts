@@ -7,6 +7,8 @@ import { resolve } from 'node:path';
 import { parseScenario, type Scenario } from '../plant/scenario.ts';
 import { baseDirOf, InputError, readBytes } from './files-node.ts';
 import { decodeWav, WavError } from './wav.ts';
+import { parsePathModel, PathModelError } from './path-model-file.ts';
+import { imperfectModel } from '../plant/secondary-model.ts';
 
 export interface LoadedScenario {
   path: string;
@@ -14,6 +16,8 @@ export interface LoadedScenario {
   wavs: Map<string, Float32Array>;
   /** SHA-256 of the file's bytes, hex. */
   sha256: string;
+  /** The controller's model when `controller.modelFile` names one (imperfections applied on top). */
+  secondaryPathModel?: Float32Array;
 }
 
 export function loadScenarioFile(path: string): LoadedScenario {
@@ -48,7 +52,21 @@ export function loadScenarioFile(path: string): LoadedScenario {
       else throw e;
     }
   });
+  let secondaryPathModel: Float32Array | undefined;
+  const modelFile = scenario.controller.modelFile;
+  if (modelFile) {
+    const file = resolve(base, modelFile);
+    try {
+      const text = new TextDecoder().decode(readBytes(file, 'controller.modelFile'));
+      const model = parsePathModel(text, { expectedSampleRate: scenario.sampleRate });
+      secondaryPathModel = imperfectModel(model.taps, scenario.controller);
+    } catch (e) {
+      if (e instanceof PathModelError) problems.push(`controller.modelFile "${modelFile}": ${e.message}`);
+      else if (e instanceof InputError) problems.push(e.message);
+      else throw e;
+    }
+  }
   if (problems.length) throw new InputError(`invalid scenario "${path}":\n  ${problems.join('\n  ')}`);
   const sha256 = createHash('sha256').update(bytes).digest('hex');
-  return { path, scenario, wavs, sha256 };
+  return { path, scenario, wavs, sha256, ...(secondaryPathModel ? { secondaryPathModel } : {}) };
 }

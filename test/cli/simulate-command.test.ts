@@ -4,6 +4,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { main } from '../../src/cli/main.ts';
 import { decodeWav, encodeWavInt16 } from '../../src/io/wav.ts';
+import { createPathModel, serializePathModel } from '../../src/io/path-model-file.ts';
 
 let dir: string;
 let out: string[];
@@ -69,6 +70,35 @@ describe('ancbench simulate', () => {
       const code = await main(['simulate', scenarioFile({ ...good, sources: [{ kind: 'wav', file: 'hum.wav', loop: true }] }), '--json']);
       expect(code).toBe(0);
       expect(JSON.parse(out.join('')).attenuationDb).toBeGreaterThan(10);
+    });
+  });
+
+  describe('with a secondary-path model file', () => {
+    function modelFile(taps: number[], sampleRate = 8000): string {
+      const m = createPathModel({ taps, sampleRate, method: 'imported', quality: { snrDb: null } });
+      const p = join(dir, 'model.json');
+      writeFileSync(p, serializePathModel(m));
+      return 'model.json';
+    }
+
+    it('should control with a good model and fail with a sign-flipped one', async () => {
+      const truth = new Array(41).fill(0);
+      truth[40] = 0.8; // the true path: 5 ms at 8 kHz, gain 0.8
+      scenarioFile({ ...good, controller: { ...good.controller, modelFile: modelFile(truth) } }, 'a.json');
+      expect(await main(['simulate', join(dir, 'a.json'), '--json'])).toBe(0);
+      const okAtt = JSON.parse(out.join('')).attenuationDb;
+      out.length = 0;
+      scenarioFile({ ...good, controller: { ...good.controller, modelFile: modelFile(truth.map((v) => -v)) } }, 'b.json');
+      expect(await main(['simulate', join(dir, 'b.json'), '--json'])).toBe(0);
+      const flipped = JSON.parse(out.join(''));
+      expect(okAtt).toBeGreaterThan(20);
+      expect(flipped.attenuationDb ?? -99).toBeLessThan(0);
+    });
+
+    it('should refuse a model of another sample rate, naming both rates', async () => {
+      const code = await main(['simulate', scenarioFile({ ...good, controller: { ...good.controller, modelFile: modelFile([0, 1], 48000) } })]);
+      expect(code).toBe(1);
+      expect(err.join('')).toMatch(/controller\.modelFile "model\.json".*48000.*8000|controller\.modelFile "model\.json".*8000.*48000/s);
     });
   });
 
