@@ -37,6 +37,15 @@ export function pathResponseAt(
   out[offset + 1] = ai;
 }
 
+/**
+ * S(ω_i) for `count` frequencies at once: out[2i], out[2i + 1] = Re, Im of S(omegas[i]).
+ * Real-time callers use this form: frequencies and results travel in typed arrays, so a call that
+ * the engine does not inline still boxes no numbers.
+ */
+export function pathResponsesAt(model: ArrayLike<number>, omegas: Float64Array, count: number, out: Float64Array): void {
+  for (let i = 0; i < count; i++) pathResponseAt(model, omegas[i]!, out, 2 * i);
+}
+
 /** S at a frequency in Hz for a given sample rate (Hz); same output convention as `pathResponseAt`. */
 export function pathResponseAtHz(
   model: ArrayLike<number>,
