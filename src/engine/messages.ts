@@ -1,0 +1,467 @@
+/**
+ * Messages between the page and the audio worklets, and the telemetry layout both sides share.
+ *
+ * Every message is a plain object with a `type` field, so it survives structured cloning and can be
+ * checked at the boundary (`parseControlMessage`). The same module is bundled into the worklets and
+ * into the page: it may use nothing of the DOM (the worklet scope has no DOM).
+ *
+ * Telemetry (meters and events) travels at display rate, about 30 frames per second, by one of two
+ * transports with the same numeric records:
+ *  - shared: a SharedArrayBuffer ring (`TelemetryWriter` in the worklet, `TelemetryReader` on the
+ *    page) when the page is cross-origin isolated; nothing is posted;
+ *  - posted: `{ type: 'meters', frame }` and `{ type: 'event', record }` messages on the node's port,
+ *    each a preallocated object reused for every post (structured cloning copies it).
+ */
+import type { ControllerConfig } from './controller-factory.ts';
+import type { EngineMode } from './engine.ts';
+
+// ---------------------------------------------------------------------------------------------
+// Meter frame: one Float64Array per display frame; index names below. Powers are mean squares
+// (full scale = 1) averaged over every block since the previous frame, peaks the largest |x| over
+// the same blocks, so no block goes unmeasured.
+// ---------------------------------------------------------------------------------------------
+
+export const METER_FIELDS = [
+  /** Audio time of the frame's last sample, s. */
+  'timeS',
+  'refPower',
+  'errPower',
+  'outPower',
+  'refPeak',
+  'errPeak',
+  'outPeak',
+  /** Engine's exponentially averaged error power, ~125 ms and ~1 s, and the held control-off level. */
+  'errPowerFast',
+  'errPowerSlow',
+  'baselineErrPower',
+  /** Attenuation now (fast) and averaged (slow) in dB; NaN while control is off. */
+  'attenuationDb',
+  'attenuationSlowDb',
+  /** Start/stop ramp gain, 0 … 1. */
+  'rampGain',
+  /** Output cap in dBFS (sample peak). */
+  'ceilingDbfs',
+  /** Cumulative output samples clamped at the cap, and non-finite output samples silenced. */
+  'ceilingHits',
+  'nonFiniteOut',
+  'weightNormSquared',
+  /** Largest limiter gain reduction over the frame, dB ≥ 0 (0 while no limiter is wired). */
+  'limiterGainReductionDb',
+  /** Control-off error power over the frame (simulated plant only; NaN live). */
+  'errOffPower',
+  /** Peak of what was played to the loudspeaker for listening (simulated plant only; NaN live). */
+  'monitorPeak',
+  /** MODE_CODES index of the engine's mode (identify while a probe plays). */
+  'mode',
+  /** 1 while the control filter adapts, 0 frozen. */
+  'adapting',
+  /** Tone follower: tracked frequency in Hz and lock (1/0); NaN when no tone follower runs. */
+  'toneHz',
+  'toneLocked',
+  /** Input channels received in the last render quantum (0: input disconnected). */
+  'inputChannels',
+  /** Samples in the last render quantum. */
+  'quantum',
+  /** Identification probe progress 0 … 1 (NaN when none plays). */
+  'probeProgress',
+  /** Input samples replaced by silence because they were not finite (cumulative). */
+  'nonFiniteIn',
+] as const;
+
+export type MeterField = (typeof METER_FIELDS)[number];
+export const METER_FRAME_LENGTH = METER_FIELDS.length;
+/** Index of each field in a meter frame. */
+export const M = Object.fromEntries(METER_FIELDS.map((k, i) => [k, i])) as { readonly [K in MeterField]: number };
+
+export const MODE_CODES = ['idle', 'control', 'muted', 'identify'] as const;
+export type PanelMode = (typeof MODE_CODES)[number];
+
+/** Read a meter frame into a plain object (allocates: for tests and logs, not for the display loop). */
+export function meterFrameToObject(frame: ArrayLike<number>): Record<MeterField, number> {
+  const o = {} as Record<MeterField, number>;
+  for (let i = 0; i < METER_FRAME_LENGTH; i++) o[METER_FIELDS[i]!] = frame[i]!;
+  return o;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Events: time, cause, action and up to three values. One shape on every thread; the worklet
+// sends them as numeric records [timeS, cause code, action code, v0, v1, v2].
+// ---------------------------------------------------------------------------------------------
+
+/**
+ * The documented list of event causes, with the names of their values. Guard causes from the
+ * engine's guard join this list when it is wired (keep codes stable: append only).
+ */
+export const EVENT_CAUSES = {
+  'input-non-finite': { text: 'input sample was NaN or infinite', values: ['samples', 'channel'] },
+  'input-missing': { text: 'input disconnected or empty', values: ['channels'] },
+  'input-restored': { text: 'input connected again', values: ['channels'] },
+  'output-non-finite': { text: 'controller produced a non-finite sample', values: ['samples'] },
+  'ceiling-hit': { text: 'output held at the cap', values: ['samples', 'peakDbfs'] },
+  'channel-count': { text: 'microphone delivered fewer channels than needed', values: ['expected', 'received'] },
+  'latency-change': { text: 'audio latency changed', values: ['beforeMs', 'afterMs'] },
+  'device-change': { text: 'audio devices changed', values: [] },
+  'error-rise': { text: 'error level rose above the control-off level', values: ['riseDb', 'forS'] },
+  'underrun': { text: 'audio output underran (overload)', values: ['events', 'durationMs'] },
+  'probe-done': { text: 'identification probe finished', values: ['samples', 'peakDbfs'] },
+  'limiter-gain-reduction': { text: 'limiter reducing gain', values: ['gainReductionDb'] },
+  'guard': { text: 'guard action', values: ['v0', 'v1', 'v2'] },
+} as const;
+export type EventCause = keyof typeof EVENT_CAUSES;
+export const EVENT_CAUSE_CODES = Object.keys(EVENT_CAUSES) as EventCause[];
+
+export const EVENT_ACTIONS = ['none', 'silenced', 'clamped', 'adaptation-frozen', 'weights-reset', 'muted', 'resumed', 'reidentify-needed'] as const;
+export type EventAction = (typeof EVENT_ACTIONS)[number];
+
+export const EVENT_RECORD_LENGTH = 6;
+
+export interface PanelEvent {
+  /** Audio time (s) for worklet events, context time for page events. */
+  timeS: number;
+  cause: EventCause;
+  action: EventAction;
+  values: Record<string, number>;
+}
+
+export function causeCode(cause: EventCause): number {
+  return EVENT_CAUSE_CODES.indexOf(cause);
+}
+export function actionCode(action: EventAction): number {
+  return EVENT_ACTIONS.indexOf(action);
+}
+
+/** Numeric record → event (unknown codes become 'guard' / 'none' rather than throwing). */
+export function decodeEvent(record: ArrayLike<number>): PanelEvent {
+  const cause = EVENT_CAUSE_CODES[record[1]!] ?? 'guard';
+  const action = EVENT_ACTIONS[record[2]!] ?? 'none';
+  const names: readonly string[] = EVENT_CAUSES[cause].values;
+  const values: Record<string, number> = {};
+  for (let i = 0; i < names.length && i < 3; i++) values[names[i]!] = record[3 + i]!;
+  return { timeS: record[0]!, cause, action, values };
+}
+
+export function encodeEvent(e: PanelEvent, out: Float64Array = new Float64Array(EVENT_RECORD_LENGTH)): Float64Array {
+  out[0] = e.timeS;
+  out[1] = causeCode(e.cause);
+  out[2] = actionCode(e.action);
+  const names: readonly string[] = EVENT_CAUSES[e.cause].values;
+  for (let i = 0; i < 3; i++) out[3 + i] = i < names.length ? (e.values[names[i]!] ?? NaN) : NaN;
+  return out;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Shared telemetry ring. Layout of the SharedArrayBuffer (little-endian host order):
+//   bytes 0 … 15   Int32 header: [0] meter frames written, [1] events written, [2] layout version,
+//                  [3] meter frame length (a reader checks it against its own)
+//   then           Float64 meter slots: METER_SLOTS × METER_FRAME_LENGTH
+//   then           Float64 event slots: EVENT_SLOTS × EVENT_RECORD_LENGTH
+// One writer (the audio thread), one reader (the page). The writer fills slot (count mod SLOTS) and
+// then publishes count + 1 with Atomics.store; the reader copies frames between its last count and
+// the published one and drops any it may have lost to wrap-around (it re-reads the count after
+// copying). 64 slots at 30 frames/s is two seconds of slack for a busy page.
+// ---------------------------------------------------------------------------------------------
+
+export const TELEMETRY_LAYOUT_VERSION = 1;
+export const METER_SLOTS = 64;
+export const EVENT_SLOTS = 64;
+const HEADER_INTS = 4;
+const HEADER_BYTES = HEADER_INTS * 4;
+
+export function telemetryByteLength(): number {
+  return HEADER_BYTES + 8 * (METER_SLOTS * METER_FRAME_LENGTH + EVENT_SLOTS * EVENT_RECORD_LENGTH);
+}
+
+function views(buffer: SharedArrayBuffer): { header: Int32Array; meters: Float64Array; events: Float64Array } {
+  if (buffer.byteLength < telemetryByteLength()) {
+    throw new RangeError(`telemetry buffer must hold at least ${telemetryByteLength()} bytes, got ${buffer.byteLength}`);
+  }
+  return {
+    header: new Int32Array(buffer, 0, HEADER_INTS),
+    meters: new Float64Array(buffer, HEADER_BYTES, METER_SLOTS * METER_FRAME_LENGTH),
+    events: new Float64Array(buffer, HEADER_BYTES + 8 * METER_SLOTS * METER_FRAME_LENGTH, EVENT_SLOTS * EVENT_RECORD_LENGTH),
+  };
+}
+
+export function createTelemetryBuffer(): SharedArrayBuffer {
+  const sab = new SharedArrayBuffer(telemetryByteLength());
+  const h = new Int32Array(sab, 0, HEADER_INTS);
+  h[2] = TELEMETRY_LAYOUT_VERSION;
+  h[3] = METER_FRAME_LENGTH;
+  return sab;
+}
+
+/** Audio-thread side of the ring: no allocation after construction. */
+export class TelemetryWriter {
+  private readonly header: Int32Array;
+  private readonly meters: Float64Array;
+  private readonly events: Float64Array;
+  private meterCount = 0;
+  private eventCount = 0;
+
+  constructor(buffer: SharedArrayBuffer) {
+    const v = views(buffer);
+    if (v.header[2] !== TELEMETRY_LAYOUT_VERSION || v.header[3] !== METER_FRAME_LENGTH) {
+      throw new RangeError(`telemetry buffer layout ${v.header[2]}/${v.header[3]} does not match ${TELEMETRY_LAYOUT_VERSION}/${METER_FRAME_LENGTH}`);
+    }
+    this.header = v.header;
+    this.meters = v.meters;
+    this.events = v.events;
+    this.meterCount = Atomics.load(this.header, 0);
+    this.eventCount = Atomics.load(this.header, 1);
+  }
+
+  writeMeters(frame: Float64Array): void {
+    const base = (this.meterCount % METER_SLOTS) * METER_FRAME_LENGTH;
+    for (let i = 0; i < METER_FRAME_LENGTH; i++) this.meters[base + i] = frame[i]!;
+    this.meterCount = (this.meterCount + 1) | 0;
+    Atomics.store(this.header, 0, this.meterCount);
+  }
+
+  writeEvent(record: Float64Array): void {
+    const base = (this.eventCount % EVENT_SLOTS) * EVENT_RECORD_LENGTH;
+    for (let i = 0; i < EVENT_RECORD_LENGTH; i++) this.events[base + i] = record[i]!;
+    this.eventCount = (this.eventCount + 1) | 0;
+    Atomics.store(this.header, 1, this.eventCount);
+  }
+}
+
+/** Page side of the ring. `poll` hands each new frame/record to the callbacks in order. */
+export class TelemetryReader {
+  private readonly header: Int32Array;
+  private readonly meters: Float64Array;
+  private readonly events: Float64Array;
+  private meterRead: number;
+  private eventRead: number;
+  private readonly frame = new Float64Array(METER_FRAME_LENGTH);
+  private readonly record = new Float64Array(EVENT_RECORD_LENGTH);
+  /** Frames and records skipped because the reader fell more than a ring behind. */
+  lostFrames = 0;
+  lostEvents = 0;
+
+  constructor(buffer: SharedArrayBuffer) {
+    const v = views(buffer);
+    this.header = v.header;
+    this.meters = v.meters;
+    this.events = v.events;
+    this.meterRead = Atomics.load(this.header, 0);
+    this.eventRead = Atomics.load(this.header, 1);
+  }
+
+  /** Returns the number of meter frames delivered. The arrays passed to the callbacks are reused. */
+  poll(onFrame: (frame: Float64Array) => void, onEvent: (record: Float64Array) => void): number {
+    let delivered = 0;
+    const written = Atomics.load(this.header, 0);
+    let from = this.meterRead;
+    // leave one slot of margin: the writer may be filling slot `written` right now
+    if (written - from > METER_SLOTS - 1) {
+      this.lostFrames += written - (METER_SLOTS - 1) - from;
+      from = written - (METER_SLOTS - 1);
+    }
+    for (let c = from; c < written; c++) {
+      const base = (((c % METER_SLOTS) + METER_SLOTS) % METER_SLOTS) * METER_FRAME_LENGTH;
+      for (let i = 0; i < METER_FRAME_LENGTH; i++) this.frame[i] = this.meters[base + i]!;
+      // if the writer lapped this slot while we copied, the frame may be torn: drop it
+      if (Atomics.load(this.header, 0) - c > METER_SLOTS - 1) {
+        this.lostFrames++;
+        continue;
+      }
+      onFrame(this.frame);
+      delivered++;
+    }
+    this.meterRead = written;
+
+    const ew = Atomics.load(this.header, 1);
+    let ef = this.eventRead;
+    if (ew - ef > EVENT_SLOTS - 1) {
+      this.lostEvents += ew - (EVENT_SLOTS - 1) - ef;
+      ef = ew - (EVENT_SLOTS - 1);
+    }
+    for (let c = ef; c < ew; c++) {
+      const base = (((c % EVENT_SLOTS) + EVENT_SLOTS) % EVENT_SLOTS) * EVENT_RECORD_LENGTH;
+      for (let i = 0; i < EVENT_RECORD_LENGTH; i++) this.record[i] = this.events[base + i]!;
+      if (Atomics.load(this.header, 1) - c > EVENT_SLOTS - 1) {
+        this.lostEvents++;
+        continue;
+      }
+      onEvent(this.record);
+    }
+    this.eventRead = ew;
+    return delivered;
+  }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Processor options (constructor arguments, validated in the worklet) and control messages.
+// ---------------------------------------------------------------------------------------------
+
+/** How the live processor's input channels map to microphones. */
+export type InputLayout = 'ref-err' | 'err-only';
+
+export interface TelemetryOptions {
+  /** Present when the page is cross-origin isolated: the worklet writes meters and events here. */
+  sharedBuffer?: SharedArrayBuffer;
+  /** Meter frames per second (5 … 120). */
+  displayRateHz: number;
+  /** Samples per audio chunk sent to the analysis worker (256 … 65536; 0 = no chunks). */
+  chunkSamples: number;
+}
+
+export interface LiveProcessorOptions {
+  controller: ControllerConfig;
+  secondaryPathModel: Float32Array;
+  ceilingDbfs: number;
+  rampMs?: number;
+  startMode?: EngineMode;
+  inputLayout: InputLayout;
+  /** Largest render quantum expected (the engine is built for it; bigger quanta are split). */
+  maxQuantum: number;
+  telemetry: TelemetryOptions;
+}
+
+export interface SimProcessorOptions {
+  /** A scenario validated by parseScenario on the page, with sampleRate and blockSize set for this context. */
+  scenario: unknown;
+  /** Gain from the simulated error mic to the loudspeaker, dB (−60 … 0). */
+  monitorGainDb: number;
+  /** Peak cap of the listening signal, dBFS (−60 … 0). */
+  monitorCeilingDbfs: number;
+  startMode?: EngineMode;
+  telemetry: TelemetryOptions;
+}
+
+/** The identification probe: an exponential sweep (Farina 2000) at a safe level, then silence for the tail. */
+export interface ProbeSpec {
+  startHz: number;
+  endHz: number;
+  durationS: number;
+  /** Peak amplitude relative to full scale, (0, 0.5]. */
+  amplitude: number;
+  /** Recording kept after the sweep ends, s (0.05 … 2). */
+  tailS: number;
+}
+
+export type ControlMessage =
+  | { type: 'set-mode'; mode: EngineMode }
+  | { type: 'set-step-size'; value: number }
+  | { type: 'set-leakage'; value: number }
+  | { type: 'set-ceiling'; dbfs: number }
+  | { type: 'set-adaptation'; on: boolean }
+  | { type: 'reset-weights' }
+  | { type: 'configure'; controller: ControllerConfig; secondaryPathModel: Float32Array; startMode?: EngineMode }
+  | { type: 'identify'; probe: ProbeSpec }
+  | { type: 'cancel-identify' }
+  | { type: 'set-monitor'; gainDb: number; source: 'on' | 'off' }
+  | { type: 'request-weights' }
+  | { type: 'attach-analysis'; port: unknown }
+  | { type: 'shutdown' };
+
+export type WorkletMessage =
+  | { type: 'ready'; sampleRate: number; telemetry: 'shared' | 'posted'; maxBlockSize: number; modelTaps: number }
+  | { type: 'meters'; frame: Float64Array }
+  | { type: 'event'; record: Float64Array }
+  | { type: 'identify-recording'; err: Float32Array; ref: Float32Array; probe: ProbeSpec; sampleRate: number }
+  | { type: 'weights'; weights: Float32Array }
+  | { type: 'model'; taps: Float32Array; truePath: Float32Array | null; sampleRate: number; source: 'scenario' | 'identified' }
+  | { type: 'configured'; modelTaps: number }
+  | { type: 'error'; message: string }
+  | { type: 'stopped' };
+
+/** A chunk of microphone audio for the analysis worker (sent on a dedicated port, never to comlink). */
+export interface AudioChunkMessage {
+  type: 'audio-chunk';
+  sampleRate: number;
+  /** Error mic with control as it is (on or off, see controlOn). */
+  err: Float32Array;
+  /** Simulated control-off error mic (simulated plant only), else null. */
+  errOff: Float32Array | null;
+  /** Reference mic. */
+  ref: Float32Array;
+  /** True when every block of the chunk ran with control on and the ramp fully open. */
+  controlOn: boolean;
+}
+
+const MODES: readonly EngineMode[] = ['idle', 'control', 'muted'];
+
+function num(m: Record<string, unknown>, field: string, lo: number, hi: number, prefix = ''): number {
+  const v = m[field];
+  if (typeof v !== 'number' || !(v >= lo && v <= hi)) throw new RangeError(`${prefix}${field} must be a number from ${lo} to ${hi}, got ${String(v)}`);
+  return v;
+}
+
+export function checkProbe(p: unknown, sampleRate: number): ProbeSpec {
+  if (typeof p !== 'object' || p === null) throw new RangeError(`probe must be an object, got ${String(p)}`);
+  const o = p as Record<string, unknown>;
+  const startHz = num(o, 'startHz', 1, sampleRate / 2, 'probe.');
+  const endHz = num(o, 'endHz', 1, sampleRate / 2, 'probe.');
+  if (!(endHz > startHz)) throw new RangeError(`probe.endHz must be above probe.startHz (${startHz} Hz), got ${endHz}`);
+  return {
+    startHz,
+    endHz,
+    durationS: num(o, 'durationS', 0.05, 30, 'probe.'),
+    amplitude: num(o, 'amplitude', 1e-6, 0.5, 'probe.'),
+    tailS: num(o, 'tailS', 0.05, 2, 'probe.'),
+  };
+}
+
+/** Validate a message arriving at a worklet. Throws RangeError naming the field. */
+export function parseControlMessage(data: unknown, sampleRate: number): ControlMessage {
+  if (typeof data !== 'object' || data === null || typeof (data as { type?: unknown }).type !== 'string') {
+    throw new RangeError(`message must be an object with a string "type", got ${String(data)}`);
+  }
+  const m = data as Record<string, unknown>;
+  switch (m.type) {
+    case 'set-mode':
+      if (!MODES.includes(m.mode as EngineMode)) throw new RangeError(`mode must be one of ${MODES.join(', ')}, got ${String(m.mode)}`);
+      return { type: 'set-mode', mode: m.mode as EngineMode };
+    case 'set-step-size':
+      return { type: 'set-step-size', value: num(m, 'value', 1e-12, 1e6) };
+    case 'set-leakage':
+      return { type: 'set-leakage', value: num(m, 'value', 0, 1e6) };
+    case 'set-ceiling':
+      return { type: 'set-ceiling', dbfs: num(m, 'dbfs', -120, 0) };
+    case 'set-adaptation':
+      if (typeof m.on !== 'boolean') throw new RangeError(`on must be true or false, got ${String(m.on)}`);
+      return { type: 'set-adaptation', on: m.on };
+    case 'reset-weights':
+    case 'cancel-identify':
+    case 'request-weights':
+    case 'shutdown':
+      return { type: m.type };
+    case 'configure': {
+      if (!(m.secondaryPathModel instanceof Float32Array) || m.secondaryPathModel.length < 1) {
+        throw new RangeError('secondaryPathModel must be a non-empty Float32Array');
+      }
+      if (typeof m.controller !== 'object' || m.controller === null) throw new RangeError('controller must be an object');
+      const startMode = m.startMode === undefined ? undefined : (m.startMode as EngineMode);
+      if (startMode !== undefined && !MODES.includes(startMode)) throw new RangeError(`startMode must be one of ${MODES.join(', ')}, got ${String(startMode)}`);
+      return {
+        type: 'configure',
+        controller: m.controller as ControllerConfig,
+        secondaryPathModel: m.secondaryPathModel,
+        ...(startMode ? { startMode } : {}),
+      };
+    }
+    case 'identify':
+      return { type: 'identify', probe: checkProbe(m.probe, sampleRate) };
+    case 'set-monitor':
+      if (m.source !== 'on' && m.source !== 'off') throw new RangeError(`source must be "on" or "off", got ${String(m.source)}`);
+      return { type: 'set-monitor', gainDb: num(m, 'gainDb', -60, 0), source: m.source };
+    case 'attach-analysis':
+      if (typeof m.port !== 'object' || m.port === null) throw new RangeError('port must be a MessagePort');
+      return { type: 'attach-analysis', port: m.port };
+    default:
+      throw new RangeError(`unknown message type "${String(m.type)}"`);
+  }
+}
+
+export function checkTelemetryOptions(t: unknown): TelemetryOptions {
+  if (typeof t !== 'object' || t === null) throw new RangeError(`telemetry must be an object, got ${String(t)}`);
+  const o = t as Record<string, unknown>;
+  const sharedBuffer = o.sharedBuffer;
+  if (sharedBuffer !== undefined && !(typeof SharedArrayBuffer !== 'undefined' && sharedBuffer instanceof SharedArrayBuffer)) {
+    throw new RangeError('telemetry.sharedBuffer must be a SharedArrayBuffer when given');
+  }
+  const displayRateHz = num(o, 'displayRateHz', 5, 120, 'telemetry.');
+  const chunkSamples = o.chunkSamples === 0 ? 0 : num(o, 'chunkSamples', 256, 65536, 'telemetry.');
+  return { displayRateHz, chunkSamples, ...(sharedBuffer ? { sharedBuffer } : {}) };
+}

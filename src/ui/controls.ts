@@ -1,0 +1,166 @@
+/**
+ * <ancb-controls>: the controller's settings. Every field has a label with its unit and works from
+ * the keyboard (native form controls). Changes are validated here (range and value named in the
+ * message) and announced with an `ancb-settings` event carrying the whole new settings object; the
+ * reset button fires `ancb-reset-weights`.
+ *
+ * Step size and output cap have a slider and a number field bound together: the slider for quick
+ * moves in a demonstration, the field for an exact value. The step-size slider is logarithmic.
+ */
+import { LitElement, css, html } from 'lit';
+import { shared, formLayout } from './theme.ts';
+import type { ControlSettings } from '../web/session.ts';
+
+export const TAPS_RANGE: [number, number] = [1, 4096];
+export const STEP_RANGE: [number, number] = [1e-6, 2];
+export const LEAK_RANGE: [number, number] = [0, 100];
+export const CAP_RANGE: [number, number] = [-40, 0];
+
+export class AncbControls extends LitElement {
+  static override properties = {
+    settings: { attribute: false },
+    problem: { state: true },
+  };
+
+  static override styles = [
+    shared,
+    formLayout,
+    css`
+      .pair input[type='number'] {
+        width: 5.5rem;
+        min-width: 0;
+      }
+      .unit {
+        color: var(--ancb-muted);
+        font-size: 0.85rem;
+      }
+      .row {
+        display: flex;
+        gap: 0.6rem;
+        align-items: center;
+        flex-wrap: wrap;
+        margin-top: 0.7rem;
+      }
+      .problem {
+        color: var(--ancb-danger);
+        min-height: 1.2em;
+        margin: 0.4rem 0 0;
+        font-size: 0.9rem;
+      }
+      .check {
+        display: flex;
+        align-items: center;
+        gap: 0.45rem;
+        font-weight: 600;
+      }
+      .check input {
+        width: 1.3rem;
+        height: 1.3rem;
+        accent-color: var(--ancb-accent);
+      }
+    `,
+  ];
+
+  declare settings: ControlSettings;
+  declare problem: string;
+
+  constructor() {
+    super();
+    this.settings = { controller: { algorithm: 'fxnlms', taps: 64, stepSize: 0.002 }, ceilingDbfs: -6, adaptation: true };
+    this.problem = '';
+  }
+
+  private emit(next: ControlSettings): void {
+    this.settings = next;
+    this.problem = '';
+    this.dispatchEvent(new CustomEvent<ControlSettings>('ancb-settings', { detail: next, bubbles: true, composed: true }));
+  }
+
+  private numberIn(e: Event, field: string, [lo, hi]: [number, number], integer = false): number | null {
+    const input = e.target as HTMLInputElement;
+    const v = Number(input.value);
+    if (input.value.trim() === '' || !Number.isFinite(v) || v < lo || v > hi || (integer && !Number.isInteger(v))) {
+      this.problem = `${field} must be ${integer ? 'a whole number' : 'a number'} from ${lo} to ${hi}, got "${input.value}"`;
+      return null;
+    }
+    return v;
+  }
+
+  private setAlgorithm(e: Event): void {
+    const a = (e.target as HTMLSelectElement).value === 'fxlms' ? 'fxlms' : 'fxnlms';
+    this.emit({ ...this.settings, controller: { ...this.settings.controller, algorithm: a } });
+  }
+
+  private setTaps(e: Event): void {
+    const v = this.numberIn(e, 'Filter length', TAPS_RANGE, true);
+    if (v !== null) this.emit({ ...this.settings, controller: { ...this.settings.controller, taps: v } });
+  }
+
+  private setStep(v: number): void {
+    this.emit({ ...this.settings, controller: { ...this.settings.controller, stepSize: v } });
+  }
+
+  private setLeak(e: Event): void {
+    const v = this.numberIn(e, 'Leakage', LEAK_RANGE);
+    if (v !== null) this.emit({ ...this.settings, controller: { ...this.settings.controller, leakage: v } });
+  }
+
+  private setCap(v: number): void {
+    this.emit({ ...this.settings, ceilingDbfs: v });
+  }
+
+  protected override render(): unknown {
+    const c = this.settings.controller;
+    const logMu = Math.log10(c.stepSize);
+    const normalised = c.algorithm === 'fxnlms';
+    return html`<section class="card" aria-labelledby="ctl-h">
+      <h2 id="ctl-h">Controller</h2>
+      <div class="grid">
+        <label for="alg">Algorithm</label>
+        <select id="alg" @change=${this.setAlgorithm} .value=${c.algorithm}>
+          <option value="fxnlms" ?selected=${c.algorithm === 'fxnlms'}>FxNLMS (normalised)</option>
+          <option value="fxlms" ?selected=${c.algorithm === 'fxlms'}>FxLMS</option>
+        </select>
+
+        <label for="taps">Filter length</label>
+        <span class="pair"><input id="taps" type="number" min=${TAPS_RANGE[0]} max=${TAPS_RANGE[1]} step="1" .value=${String(c.taps)} @change=${this.setTaps} /><span class="unit">taps</span></span>
+
+        <label for="mu">Step size μ</label>
+        <span class="pair">
+          <input id="mu-slider" type="range" min="-6" max="0.3" step="0.05" .value=${String(logMu)} aria-label="Step size μ, logarithmic slider"
+            aria-valuetext=${c.stepSize.toPrecision(3)}
+            @input=${(e: Event) => this.setStep(Number(Math.pow(10, Number((e.target as HTMLInputElement).value)).toPrecision(3)))} />
+          <input id="mu" type="number" min=${STEP_RANGE[0]} max=${STEP_RANGE[1]} step="any" .value=${String(c.stepSize)}
+            @change=${(e: Event) => { const v = this.numberIn(e, 'Step size', STEP_RANGE); if (v !== null) this.setStep(v); }} />
+        </span>
+        <span></span><span class="unit">${normalised ? 'normalised, stable for 0 < μ < 2 (less with a long secondary-path delay)' : 'in 1/(power × taps); keep well below 2/(L·P_f)'}</span>
+
+        <label for="leak">Leakage γ</label>
+        <span class="pair"><input id="leak" type="number" min="0" max=${LEAK_RANGE[1]} step="any" .value=${String(c.leakage ?? 0)} @change=${this.setLeak} /><span class="unit">w ← (1 − μγ)·w</span></span>
+
+        <label for="cap">Output cap</label>
+        <span class="pair">
+          <input id="cap-slider" type="range" min=${CAP_RANGE[0]} max=${CAP_RANGE[1]} step="0.5" .value=${String(this.settings.ceilingDbfs)} aria-label="Output cap in dBFS, slider"
+            aria-valuetext=${`${this.settings.ceilingDbfs} dBFS`}
+            @input=${(e: Event) => this.setCap(Number((e.target as HTMLInputElement).value))} />
+          <input id="cap" type="number" min=${CAP_RANGE[0]} max=${CAP_RANGE[1]} step="0.5" .value=${String(this.settings.ceilingDbfs)}
+            @change=${(e: Event) => { const v = this.numberIn(e, 'Output cap', CAP_RANGE); if (v !== null) this.setCap(v); }} /><span class="unit">dBFS peak</span>
+        </span>
+      </div>
+      <div class="row">
+        <label class="check"><input id="adapt" type="checkbox" .checked=${this.settings.adaptation}
+          @change=${(e: Event) => this.emit({ ...this.settings, adaptation: (e.target as HTMLInputElement).checked })} />Adapt (clear to pause: weights frozen)</label>
+        <button id="reset" @click=${() => this.dispatchEvent(new CustomEvent('ancb-reset-weights', { bubbles: true, composed: true }))}>Reset weights</button>
+      </div>
+      <p class="problem" role="alert">${this.problem}</p>
+    </section>`;
+  }
+}
+
+if (!customElements.get('ancb-controls')) customElements.define('ancb-controls', AncbControls);
+
+declare global {
+  interface HTMLElementTagNameMap {
+    'ancb-controls': AncbControls;
+  }
+}

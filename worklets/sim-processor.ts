@@ -1,0 +1,148 @@
+import { PlantLoop } from '../src/plant/simulate.ts';
+import type { Scenario } from '../src/plant/scenario.ts';
+import { M, MODE_CODES, checkTelemetryOptions, type SimProcessorOptions } from '../src/engine/messages.ts';
+import { ChunkSender, Telemetry, levels } from './adapter.ts';
+import { receive, applyEngineMessage, copyWeights, relayEngineEvents, EngineEventState, outputStage } from './engine-events.ts';
+
+/**
+ * Simulated-plant processor: no input; runs the scenario's closed loop (sources, paths, microphones,
+ * engine, loudspeaker) in real time with PlantLoop and plays what a listener at the error mic would
+ * hear, so colleagues hear the noise fade when control starts.
+ *
+ * Block size: the page hands a scenario copy whose sampleRate is this context's and whose blockSize
+ * is the smallest power of two ≥ max(32, render quantum) (validated there with parseScenario, which
+ * also checks that the secondary path is at least one block long). Each quantum is one step of the
+ * loop, or several when a quantum is longer than the block.
+ *
+ * Listening path: error-mic signal (control on, or the control-off twin for comparison) × monitor
+ * gain, then the output stage (non-finite → 0, hard clamp at the monitor cap).
+ *
+ * Bundle rules: imports first, no exports, no top-level side effects besides registerProcessor.
+ */
+class SimProcessor extends AudioWorkletProcessor {
+  private readonly loop: PlantLoop;
+  private readonly telemetry: Telemetry;
+  private readonly chunks: ChunkSender;
+  private readonly evState = new EngineEventState();
+  private readonly mon: Float32Array;
+  private readonly lv = new Float64Array(2);
+  private monitorGain: number;
+  private readonly monitorCeiling: number;
+  private monitorSource: 'on' | 'off' = 'on';
+  private state: 'run' | 'stopping' | 'stopped' = 'run';
+
+  constructor(options: WorkletNodeOptions) {
+    super(options);
+    const o = options.processorOptions as SimProcessorOptions | undefined;
+    if (!o || typeof o !== 'object') throw new RangeError('processorOptions must be an object');
+    const sc = o.scenario as Scenario;
+    if (!sc || typeof sc !== 'object' || sc.sampleRate !== sampleRate) {
+      throw new RangeError(`scenario.sampleRate must equal the context's ${sampleRate} Hz, got ${String(sc?.sampleRate)}`);
+    }
+    if (!(o.monitorGainDb >= -60 && o.monitorGainDb <= 0)) throw new RangeError(`monitorGainDb must be from −60 to 0 dB, got ${String(o.monitorGainDb)}`);
+    if (!(o.monitorCeilingDbfs >= -60 && o.monitorCeilingDbfs <= 0)) throw new RangeError(`monitorCeilingDbfs must be from −60 to 0 dBFS, got ${String(o.monitorCeilingDbfs)}`);
+    const telemetry = checkTelemetryOptions(o.telemetry);
+    this.loop = new PlantLoop(sc, { startMode: o.startMode ?? 'idle' });
+    this.mon = new Float32Array(sc.blockSize);
+    this.monitorGain = Math.pow(10, o.monitorGainDb / 20);
+    this.monitorCeiling = Math.pow(10, o.monitorCeilingDbfs / 20);
+    this.telemetry = new Telemetry(this.port, telemetry, sampleRate);
+    this.chunks = new ChunkSender(telemetry.chunkSamples, sampleRate, true);
+    this.port.onmessage = (e) => this.onMessage(e.data);
+    this.port.postMessage({
+      type: 'ready',
+      sampleRate,
+      telemetry: this.telemetry.shared ? 'shared' : 'posted',
+      maxBlockSize: sc.blockSize,
+      modelTaps: this.loop.secondaryPathModel.length,
+    });
+    this.port.postMessage({
+      type: 'model',
+      taps: Float32Array.from(this.loop.secondaryPathModel),
+      truePath: Float32Array.from(this.loop.trueSecondaryPath),
+      sampleRate,
+      source: 'scenario',
+    });
+  }
+
+  private onMessage(data: unknown): void {
+    const msg = receive(this.port, data, sampleRate);
+    if (msg === null) return;
+    const engine = this.loop.engine;
+    if (applyEngineMessage(engine, msg)) return;
+    switch (msg.type) {
+      case 'set-mode':
+        if (this.state === 'run') engine.setMode(msg.mode);
+        break;
+      case 'set-monitor':
+        this.monitorGain = Math.pow(10, msg.gainDb / 20);
+        this.monitorSource = msg.source;
+        break;
+      case 'attach-analysis':
+        this.chunks.attach(msg.port as WorkletPort);
+        break;
+      case 'request-weights':
+        this.port.postMessage({ type: 'weights', weights: copyWeights(engine) });
+        break;
+      case 'configure':
+      case 'identify':
+      case 'cancel-identify':
+        this.port.postMessage({ type: 'error', message: `"${msg.type}" is for the live processor; the simulated plant takes its model from the scenario` });
+        break;
+      case 'shutdown':
+        engine.setMode('muted');
+        this.state = 'stopping';
+        break;
+    }
+  }
+
+  process(_inputs: Float32Array[][], outputs: Float32Array[][]): boolean {
+    if (this.state === 'stopped') return false;
+    const output = outputs[0];
+    const out0 = output !== undefined && output.length > 0 ? output[0] : undefined;
+    if (out0 === undefined) return true;
+    const n = out0.length;
+    const loop = this.loop;
+    const engine = loop.engine;
+    const tel = this.telemetry;
+    const B = loop.blockSize;
+    const lv = this.lv;
+    for (let off = 0; off < n; off += B) {
+      const m = n - off < B ? n - off : B;
+      loop.step(m);
+      const src = this.monitorSource === 'on' ? loop.errOn : loop.errOff;
+      const g = this.monitorGain;
+      for (let i = 0; i < m; i++) this.mon[i] = src[i]! * g;
+      const monPk = outputStage(this.mon, m, this.monitorCeiling);
+      for (let i = 0; i < m; i++) out0[off + i] = this.mon[i]!;
+      const em = engine.meters;
+      tel.addBlock(m, em.refPower, em.errPower, em.outPower, em.refPeak, em.errPeak, em.outPeak);
+      levels(loop.errOff, m, lv);
+      tel.addSimBlock(m, lv[0]!, monPk);
+      relayEngineEvents(engine, tel, this.evState);
+      this.chunks.push(loop.errOn, loop.errOff, loop.ref, m, engine.currentMode === 'control' && em.rampGain === 1);
+    }
+    for (let c = 1; c < output!.length; c++) output![c]!.set(out0);
+    if (tel.due) {
+      tel.fillFromEngine(engine);
+      const f = tel.frame;
+      f[M.mode] = MODE_CODES.indexOf(engine.currentMode);
+      f[M.toneHz] = NaN;
+      f[M.toneLocked] = NaN;
+      f[M.inputChannels] = 2;
+      f[M.quantum] = n;
+      f[M.probeProgress] = NaN;
+      f[M.nonFiniteIn] = loop.nonFiniteErr;
+      tel.publish();
+    }
+    if (this.state === 'stopping' && engine.meters.rampGain === 0) {
+      this.state = 'stopped';
+      this.chunks.close();
+      this.port.postMessage({ type: 'stopped' });
+      return false;
+    }
+    return true;
+  }
+}
+
+registerProcessor('ancbench-sim', SimProcessor);
