@@ -39,6 +39,8 @@ export interface SimulateSummary {
   errorOffDbfs: number | null;
   errorOnDbfs: number | null;
   clipping: { referenceSamples: number; errorSamples: number };
+  tones: { hz: number; harmonic: number; source: number; attenuationDb: number | null }[];
+  trackingErrorHz: { rms: number; max: number } | null;
   notes: Record<string, string>;
   stamp: Stamp;
 }
@@ -61,6 +63,8 @@ export function summarize(path: string, r: SimulationResult, st: Stamp, name: st
     errorOffDbfs: r.errorOffDbfs,
     errorOnDbfs: r.errorOnDbfs,
     clipping: r.clipping,
+    tones: r.tones,
+    trackingErrorHz: r.trackingErrorHz,
     notes: r.convergenceS === null ? { ...r.notes, convergenceS: 'the trailing 100 ms attenuation never settled within 3 dB of its steady-state value' } : r.notes,
     stamp: st,
   };
@@ -85,6 +89,8 @@ export function readableSummary(s: SimulateSummary): string {
     `peak output   ${s.peakOutputDbfs === null ? 'n/a' : `${s.peakOutputDbfs.toFixed(1)} dBFS`}  (ceiling ${s.outputCeilingDbfs} dBFS)`,
     `diverged      ${s.diverged ? `YES: ${s.divergenceReasons.join('; ')}` : 'no'}`,
   ];
+  for (const t of s.tones) lines.push(`tone          ${t.hz.toFixed(1)} Hz (source ${t.source}, harmonic ${t.harmonic}): ${fmtDb(t.attenuationDb)}`);
+  if (s.trackingErrorHz) lines.push(`tracking      RMS ${s.trackingErrorHz.rms.toFixed(2)} Hz, max ${s.trackingErrorHz.max.toFixed(2)} Hz (from first lock)`);
   for (const [k, v] of Object.entries(s.notes)) lines.push(`note          ${k}: ${v}`);
   return lines.join('\n');
 }

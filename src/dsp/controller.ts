@@ -26,4 +26,8 @@ export interface Controller {
   weightNormSquared(): number;
   /** Copy the current control weights into `out` (allocated by the caller); returns the count written. */
   copyWeights(out: Float32Array): number;
+  /** Change the step size μ (applied by the engine at a block boundary). */
+  setStepSize?(mu: number): void;
+  /** Change the leakage γ ≥ 0. */
+  setLeakage?(gamma: number): void;
 }

@@ -95,6 +95,14 @@ export class FxlmsController implements Controller {
     this.sinceRecompute = 0;
   }
 
+  setStepSize(mu: number): void {
+    if (mu > 0 && Number.isFinite(mu)) this.stepSize = mu;
+  }
+
+  setLeakage(gamma: number): void {
+    if (gamma >= 0 && Number.isFinite(gamma)) this.leakage = gamma;
+  }
+
   /** Clear the weights only (delay lines keep their history). */
   resetWeights(): void {
     this.w.fill(0);

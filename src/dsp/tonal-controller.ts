@@ -152,8 +152,8 @@ export class TonalController implements Controller {
   readonly maxBlockSize: number;
   readonly minHz: number;
   readonly maxHz: number;
-  readonly stepSize: number;
-  readonly leakage: number;
+  stepSize: number;
+  leakage: number;
   readonly regularization: number;
   /** Index of the model's largest tap (samples): the bulk delay used by `stepSizeLimit`. */
   readonly modelDelay: number;
@@ -269,6 +269,18 @@ export class TonalController implements Controller {
   }
 
   /** The frequency source in use (a pending change shows after the next block). */
+  /** Change μ at the next block (0 < μ < 2); the per-harmonic normalisation is recomputed. */
+  setStepSize(mu: number): void {
+    if (!(mu > 0 && mu < 2)) return;
+    this.stepSize = mu;
+    this.omegaEval = NaN;
+  }
+
+  /** Change γ at the next block (γ ≥ 0, μγ < 1). */
+  setLeakage(gamma: number): void {
+    if (gamma >= 0 && this.stepSize * gamma < 1) this.leakage = gamma;
+  }
+
   get frequencySource(): FrequencySource {
     return this.source;
   }

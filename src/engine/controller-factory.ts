@@ -1,23 +1,31 @@
 import type { Controller } from '../dsp/controller.ts';
 import { FxlmsController, type FxlmsConfig } from '../dsp/fxlms.ts';
+import { TonalController, type TonalControllerConfig } from '../dsp/tonal-controller.ts';
+
+/** The narrowband controller's settings as a configuration names them (the engine supplies the rest). */
+export type TonalSettings = { algorithm: 'tonal' } & Omit<TonalControllerConfig, 'sampleRate' | 'maxBlockSize' | 'secondaryPathModel'>;
 
 /** Every controller configuration the engine can run: a union discriminated by `algorithm`. */
-export type ControllerConfig = FxlmsConfig;
+export type ControllerConfig = FxlmsConfig | TonalSettings;
 
 /** Build the controller a configuration names. Validates; allocates everything once. */
 export function createController(
   config: ControllerConfig,
   secondaryPathModel: Float32Array,
   maxBlockSize: number,
-  _sampleRate: number,
+  sampleRate: number,
 ): Controller {
   switch (config.algorithm) {
     case 'fxlms':
     case 'fxnlms':
       return new FxlmsController(config, secondaryPathModel, maxBlockSize);
+    case 'tonal': {
+      const { algorithm: _a, ...rest } = config;
+      return new TonalController({ ...rest, sampleRate, maxBlockSize, secondaryPathModel });
+    }
     default: {
-      const unknown: never = config.algorithm;
-      throw new RangeError(`controller.algorithm "${String(unknown)}" is not known`);
+      const unknown: never = config;
+      throw new RangeError(`controller.algorithm "${String((unknown as { algorithm: string }).algorithm)}" is not known`);
     }
   }
 }

@@ -26,7 +26,15 @@ export interface EngineConfig {
   rampMs?: number;
   /** Mode at construction. Default 'idle'. */
   startMode?: EngineMode;
+  /**
+   * A second controller to switch to at runtime (for example the narrowband one beside a broadband
+   * FxLMS). It runs frozen while on standby so its delay lines (and tone tracker) stay current.
+   */
+  standbyController?: ControllerConfig;
 }
+
+/** Default crossfade between controllers, ms. */
+export const DEFAULT_CROSSFADE_MS = 200;
 
 export const DEFAULT_CEILING_DBFS = -6;
 export const DEFAULT_RAMP_MS = 50;
@@ -69,7 +77,10 @@ export class EngineMeters {
 export class Engine {
   readonly sampleRate: number;
   readonly maxBlockSize: number;
-  readonly controller: Controller;
+  /** The controller in charge now. */
+  controller: Controller;
+  /** The other controller, when one is configured. */
+  standby: Controller | null;
   readonly meters = new EngineMeters();
   private mode: EngineMode;
   private ceiling: number;
@@ -77,6 +88,10 @@ export class Engine {
   private rampGain = 0;
   private rampTarget = 0;
   private readonly ctrlOut: Float32Array;
+  private readonly standbyOut: Float32Array;
+  private fadeLeft = 0;
+  private fadeTotal = 0;
+  private pendingSwitchMs = NaN;
   private readonly fastCoef: number;
   private readonly slowCoef: number;
   private baselineValid = false;
@@ -99,9 +114,12 @@ export class Engine {
     this.sampleRate = sampleRate;
     this.maxBlockSize = maxBlockSize;
     this.controller = createController(config.controller, config.secondaryPathModel, maxBlockSize, sampleRate);
+    this.standby = config.standbyController ? createController(config.standbyController, config.secondaryPathModel, maxBlockSize, sampleRate) : null;
+    if (this.standby) this.standby.adapt = false;
     this.ceiling = Math.pow(10, ceilingDbfs / 20);
     this.rampStep = rampMs > 0 ? 1 / ((rampMs / 1000) * sampleRate) : 1;
     this.ctrlOut = new Float32Array(maxBlockSize);
+    this.standbyOut = new Float32Array(maxBlockSize);
     this.fastCoef = 0.125 * sampleRate;
     this.slowCoef = 1.0 * sampleRate;
     this.mode = config.startMode ?? 'idle';
@@ -137,6 +155,17 @@ export class Engine {
   resetWeights(): void {
     this.pendingResetWeights = true;
   }
+  /**
+   * Hand control to the standby controller with a raised-cosine crossfade (ms): the outgoing one is
+   * frozen and fades out while the incoming one adapts and fades in, so there is no click or burst.
+   */
+  switchController(crossfadeMs = DEFAULT_CROSSFADE_MS): void {
+    if (this.standby && crossfadeMs >= 0 && crossfadeMs <= 10000) this.pendingSwitchMs = crossfadeMs;
+  }
+  /** True while a crossfade between controllers is under way. */
+  get switching(): boolean {
+    return this.fadeLeft > 0;
+  }
 
   private applyPending(): void {
     if (this.pendingMode !== null) {
@@ -147,13 +176,24 @@ export class Engine {
         this.rampTarget = m === 'control' ? 1 : 0;
       }
     }
-    const c = this.controller as Controller & { stepSize?: number; leakage?: number };
+    if (!Number.isNaN(this.pendingSwitchMs) && this.standby) {
+      const incoming = this.standby;
+      const adapt = this.controller.adapt;
+      this.standby = this.controller;
+      this.standby.adapt = false;
+      this.controller = incoming;
+      this.controller.adapt = adapt;
+      this.fadeTotal = Math.max(1, Math.round((this.pendingSwitchMs / 1000) * this.sampleRate));
+      this.fadeLeft = this.fadeTotal;
+      this.pendingSwitchMs = NaN;
+    }
+    const c = this.controller;
     if (!Number.isNaN(this.pendingStepSize)) {
-      if ('stepSize' in c) c.stepSize = this.pendingStepSize;
+      if (c.setStepSize) c.setStepSize(this.pendingStepSize);
       this.pendingStepSize = NaN;
     }
     if (!Number.isNaN(this.pendingLeakage)) {
-      if ('leakage' in c) c.leakage = this.pendingLeakage;
+      if (c.setLeakage) c.setLeakage(this.pendingLeakage);
       this.pendingLeakage = NaN;
     }
     if (!Number.isNaN(this.pendingCeiling)) {
@@ -202,6 +242,25 @@ export class Engine {
       this.controller.process(ref, err, y, n);
     } else {
       for (let i = 0; i < n; i++) y[i] = 0;
+    }
+    const sb = this.standby;
+    if (sb) {
+      // the standby runs frozen every block, so its delay lines and tone tracker stay current
+      const z = this.standbyOut;
+      sb.process(ref, err, z, n);
+      if (this.fadeLeft > 0 && running) {
+        const total = this.fadeTotal;
+        let left = this.fadeLeft;
+        for (let i = 0; i < n; i++) {
+          // incoming gain rises as a raised cosine from 0 to 1; the outgoing one falls as its complement
+          const a = left > 0 ? 0.5 - 0.5 * Math.cos((Math.PI * (total - left)) / total) : 1;
+          y[i] = a * y[i]! + (1 - a) * z[i]!;
+          if (left > 0) left--;
+        }
+        this.fadeLeft = left;
+      } else {
+        this.fadeLeft = 0;
+      }
     }
 
     // Output stage: ramp, then a hard ceiling no sample can pass; non-finite → silence.

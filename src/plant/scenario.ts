@@ -22,6 +22,8 @@ const toneSource = z.strictObject({
   amplitude: num(0, 1e3),
   driftHzPerS: finite().optional(),
   phaseDeg: finite().optional(),
+  /** Frequency jumps (phase-continuous): at `atS` seconds the tone moves to `hz` (drift continues from there). */
+  steps: z.array(z.strictObject({ atS: num(0, 86400, 'time in seconds'), hz: num(1, 96000, 'frequency in Hz') }), { error: 'must be an array of {atS, hz}' }).max(1000).optional(),
 });
 const harmonicsSource = z.strictObject({
   kind: z.literal('harmonics'),
@@ -82,8 +84,28 @@ const fxlmsController = z.strictObject({
   ...modelFields,
 });
 
-export const controllerSchema = z.discriminatedUnion('algorithm', [fxlmsController], {
-  error: (iss) => (iss.code === 'invalid_union' ? 'algorithm must be one of "fxlms", "fxnlms"' : undefined),
+/**
+ * Narrowband FxLMS on synthesized references at the tracked fundamental and its harmonics.
+ * `stepSize` is normalised per harmonic by the power of its filtered synthesized reference:
+ * μ_k = stepSize / (δ + |Ŝ(kω₀)|²), so the error at each harmonic decays with a time constant of
+ * about 2/stepSize samples whatever the path gain (0 < stepSize < 2; see src/dsp/tonal-controller.ts).
+ */
+const tonalController = z.strictObject({
+  algorithm: z.literal('tonal'),
+  harmonics: int(1, 8),
+  stepSize: z.number({ error: 'must be a number from 0 to 2 (exclusive)' }).gt(0, 'must be > 0').lt(2, 'must be < 2'),
+  hz: num(1, 96000, 'frequency in Hz').optional(),
+  frequencySource: z.enum(['reference', 'error', 'fixed', 'external'], { error: 'must be "reference", "error", "fixed" or "external"' }).optional(),
+  minHz: num(1, 96000).optional(),
+  maxHz: num(1, 96000).optional(),
+  harmonicsCheck: z.boolean().optional(),
+  leakage: num(0, 1e6).optional(),
+  regularization: z.number().min(0, 'must be ≥ 0').optional(),
+  ...modelFields,
+});
+
+export const controllerSchema = z.discriminatedUnion('algorithm', [fxlmsController, tonalController], {
+  error: (iss) => (iss.code === 'invalid_union' ? 'algorithm must be one of "fxlms", "fxnlms", "tonal"' : undefined),
 });
 
 export const scenarioSchema = z.strictObject({
@@ -149,6 +171,10 @@ export function parseScenario(value: unknown): Scenario {
   s.sources.forEach((src, i) => {
     if (src.kind === 'tone') {
       if (src.hz >= nyq) problems.push(`sources[${i}].hz: must be below the Nyquist frequency ${nyq} Hz, got ${src.hz}`);
+      src.steps?.forEach((st, j) => {
+        if (st.hz >= nyq) problems.push(`sources[${i}].steps[${j}].hz: must be below the Nyquist frequency ${nyq} Hz, got ${st.hz}`);
+        if (j > 0 && st.atS <= src.steps![j - 1]!.atS) problems.push(`sources[${i}].steps[${j}].atS: steps must be in increasing time order, got ${st.atS} after ${src.steps![j - 1]!.atS}`);
+      });
       const end = src.hz + (src.driftHzPerS ?? 0) * s.durationS;
       if (end <= 0 || end >= nyq) problems.push(`sources[${i}].driftHzPerS: the tone would reach ${end.toFixed(1)} Hz by the end of the run, outside (0, ${nyq}) Hz`);
     }
@@ -177,6 +203,13 @@ export function parseScenario(value: unknown): Scenario {
           `This path includes the audio I/O latency, which is never shorter than one block`,
       );
     }
+  }
+  if (s.controller.algorithm === 'tonal') {
+    const c = s.controller;
+    if (c.frequencySource === 'fixed' && c.hz === undefined) problems.push('controller.hz: required when frequencySource is "fixed"');
+    if (c.hz !== undefined && c.hz >= nyq) problems.push(`controller.hz: must be below the Nyquist frequency ${nyq} Hz, got ${c.hz}`);
+    if (c.maxHz !== undefined && c.maxHz > s.sampleRate / 4) problems.push(`controller.maxHz: must be at most sampleRate/4 = ${s.sampleRate / 4} Hz, got ${c.maxHz}`);
+    if (c.minHz !== undefined && c.maxHz !== undefined && !(c.maxHz >= 1.25 * c.minHz)) problems.push(`controller.maxHz: must be at least 1.25 × minHz = ${1.25 * c.minHz} Hz, got ${c.maxHz}`);
   }
   if (s.controlStartS !== undefined && s.controlStartS >= s.durationS) {
     problems.push(`controlStartS: must be before the end of the run (${s.durationS} s), got ${s.controlStartS}`);

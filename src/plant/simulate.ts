@@ -19,6 +19,7 @@ import { PathFilter } from './path-filter.ts';
 import { pathResponse, type Scenario } from './scenario.ts';
 import { createSource, type SourceGenerator, type WavTable } from './sources.ts';
 import { imperfectModel } from './secondary-model.ts';
+import { TonalController } from '../dsp/tonal-controller.ts';
 
 export interface SimulateOptions {
   /** Decoded WAV sources (mono, at the scenario's sample rate), keyed by the scenario's `file`. */
@@ -58,6 +59,14 @@ export interface SimulationResult {
   errorOffDbfs: number | null;
   errorOnDbfs: number | null;
   clipping: { referenceSamples: number; errorSamples: number };
+  /**
+   * Per tonal component (each tone, each harmonic of a harmonic series): mean true frequency over the
+   * last 25 % of the run and the attenuation found by demodulating the error at the true instantaneous
+   * phase over that window, 20·log10(|E_off| / |E_on|).
+   */
+  tones: ToneResult[];
+  /** Tracking error of the narrowband controller (Hz), from its first lock to the end; null otherwise. */
+  trackingErrorHz: { rms: number; max: number } | null;
   /** Reasons for null figures and other remarks, keyed by field. */
   notes: Record<string, string>;
   /** The model the controller used. */
@@ -66,7 +75,20 @@ export interface SimulationResult {
   signals?: SimulationSignals;
 }
 
+export interface ToneResult {
+  hz: number;
+  harmonic: number;
+  source: number;
+  attenuationDb: number | null;
+}
+
 export const HOP_S = 0.01;
+
+/** I/Q demodulation of the error at a tonal component's true phase, control off and on. */
+class ToneMeter {
+  offRe = 0; offIm = 0; onRe = 0; onIm = 0; hzSum = 0; count = 0;
+  constructor(readonly source: number, readonly harmonic: number) {}
+}
 
 function dense(r: { offset: number; taps: Float64Array }): { offset: number; taps: Float64Array } {
   return r.taps.length ? r : { offset: 0, taps: new Float64Array(1) };
@@ -75,6 +97,22 @@ function dense(r: { offset: number; taps: Float64Array }): { offset: number; tap
 /** The controller part of a scenario as the engine wants it. */
 export function engineControllerConfig(sc: Scenario): ControllerConfig {
   const c = sc.controller;
+  if (c.algorithm === 'tonal') {
+    // frequency source: the reference mic by default; 'fixed' when only hz is given
+    const frequencySource = c.frequencySource ?? (c.hz !== undefined ? 'fixed' : 'reference');
+    return {
+      algorithm: 'tonal',
+      harmonics: c.harmonics,
+      stepSize: c.stepSize,
+      frequencySource,
+      ...(c.hz !== undefined ? { hz: c.hz } : {}),
+      ...(c.minHz !== undefined ? { minHz: c.minHz } : {}),
+      ...(c.maxHz !== undefined ? { maxHz: c.maxHz } : {}),
+      ...(c.harmonicsCheck !== undefined ? { harmonicsCheck: c.harmonicsCheck } : {}),
+      ...(c.leakage !== undefined ? { leakage: c.leakage } : {}),
+      ...(c.regularization !== undefined ? { regularization: c.regularization } : {}),
+    };
+  }
   return {
     algorithm: c.algorithm,
     taps: c.taps,
@@ -113,7 +151,7 @@ export class PlantLoop {
   clipRef = 0;
   clipErr = 0;
   nonFiniteErr = 0;
-  private readonly sources: SourceGenerator[];
+  readonly sources: SourceGenerator[];
   private readonly refF: PathFilter;
   private readonly priF: PathFilter;
   private readonly secF: PathFilter;
@@ -133,7 +171,7 @@ export class PlantLoop {
     this.sampleRate = fs;
     this.blockSize = B;
     const wavs = opts.wavs ?? new Map();
-    this.sources = sc.sources.map((s, i) => createSource(s, i, fs, sc.seed, wavs));
+    this.sources = sc.sources.map((s, i) => createSource(s, i, fs, sc.seed, wavs, B));
     const refR = dense(pathResponse(sc.paths.reference, fs));
     const priR = dense(pathResponse(sc.paths.primary, fs));
     const secR = dense(pathResponse(sc.paths.secondary, fs));
@@ -235,6 +273,18 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   let peakOut = 0;
   let lastProgress = -1;
   const { ref, errOn, errOff, out, refNoFeedback } = loop;
+  // tonal components, demodulated over the last 25 % of the run
+  const steadyStart = Math.floor(total * 0.75);
+  const toneMeters: ToneMeter[] = [];
+  loop.sources.forEach((g, si) => {
+    g.harmonicAmplitudes?.forEach((a, k) => {
+      if (a > 0) toneMeters.push(new ToneMeter(si, k + 1));
+    });
+  });
+  const tonal = engine.controller instanceof TonalController ? engine.controller : null;
+  const tracked = tonal && (tonal.frequencySource === 'reference' || tonal.frequencySource === 'error') ? tonal : null;
+  const truth = loop.sources.find((g) => g.frequencies);
+  let locked = false, trackSq = 0, trackMax = 0, trackN = 0;
   for (let t = 0; t < total; t += B) {
     const n = Math.min(B, total - t);
     if (t <= controlStartSample && controlStartSample < t + n && controlStartSample > 0) engine.setMode('control');
@@ -259,6 +309,28 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
         rec.errorOff[ti] = eo;
       }
     }
+    if (t + n > steadyStart) {
+      for (const tm of toneMeters) {
+        const g = loop.sources[tm.source]!;
+        const ph = g.phases!, fr = g.frequencies!;
+        for (let i = Math.max(0, steadyStart - t); i < n; i++) {
+          const c = Math.cos(tm.harmonic * ph[i]!), sn = Math.sin(tm.harmonic * ph[i]!);
+          tm.offRe += errOff[i]! * c; tm.offIm += errOff[i]! * sn;
+          tm.onRe += errOn[i]! * c; tm.onIm += errOn[i]! * sn;
+          tm.hzSum += tm.harmonic * fr[i]!;
+          tm.count++;
+        }
+      }
+    }
+    if (tracked && truth) {
+      if (!locked && tracked.trackerLocked && tracked.frequencyKnown) locked = true;
+      if (locked) {
+        const err = tracked.frequencyHz - truth.frequencies![n - 1]!;
+        trackSq += err * err;
+        trackN++;
+        if (Math.abs(err) > trackMax) trackMax = Math.abs(err);
+      }
+    }
     if (opts.onProgress) {
       const p = Math.floor((100 * (t + n)) / total);
       if (p !== lastProgress) {
@@ -279,10 +351,12 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     notes.attenuationDb = conv.offPower === 0 ? 'the error signal is silent with control off' : 'the error signal is silent with control on (no sensor noise?)';
     attenuationDb = null;
   }
-  const stationary = sc.sources.every((s) => !(('driftHzPerS' in s) && s.driftHzPerS)) && sc.sources.every((s) => s.kind !== 'wav');
+  const stationary = sc.sources.every((s) => !(('driftHzPerS' in s) && s.driftHzPerS) && !(s.kind === 'tone' && s.steps?.length) && s.kind !== 'wav');
   let wienerBoundDb: number | null = null;
-  const L = sc.controller.taps;
-  if (L > 16384) {
+  const L = sc.controller.algorithm === 'tonal' ? 0 : sc.controller.taps;
+  if (sc.controller.algorithm === 'tonal') {
+    notes.wienerBoundDb = 'not computed for the narrowband controller: see the per-tone figures';
+  } else if (L > 16384) {
     notes.wienerBoundDb = `not computed for more than 16384 taps (got ${L})`;
   } else {
     const filtered = fftConvolve(wRef, trueSec).subarray(0, wienerN);
@@ -297,12 +371,28 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
       'time-varying notch narrower than any fixed L-tap filter (a non-Wiener effect; Glover, IEEE TASSP 25(6), 1977, from memory). ' +
       'More taps or less reference noise bring the two together';
   }
-  if (!stationary) notes.wienerBound = 'the scenario is not stationary (drifting tone or recorded source): the Wiener figure is the best fixed filter over the run, not a bound on an adaptive one';
+  if (!stationary && sc.controller.algorithm !== 'tonal') notes.wienerBound = 'the scenario is not stationary (drifting tone or recorded source): the Wiener figure is the best fixed filter over the run, not a bound on an adaptive one';
   if (clipRef || clipErr) notes.clipping = `microphone signals clipped at full scale: ${clipRef} reference and ${clipErr} error samples`;
   let peakOutputDbfs: number | null = amplitudeToDb(peakOut);
   if (!Number.isFinite(peakOutputDbfs)) {
     peakOutputDbfs = null;
     notes.peakOutputDbfs = 'the controller produced no output';
+  }
+  const tones: ToneResult[] = toneMeters.map((tm) => {
+    const off = Math.hypot(tm.offRe, tm.offIm);
+    const on = Math.hypot(tm.onRe, tm.onIm);
+    const a = 20 * Math.log10(off / on);
+    return { hz: tm.count ? tm.hzSum / tm.count : NaN, harmonic: tm.harmonic, source: tm.source, attenuationDb: Number.isFinite(a) ? a : null };
+  });
+  if (tonal && tonal.stepSize > tonal.stepSizeLimit) {
+    notes.stepSize = `stepSize ${tonal.stepSize} exceeds the delayed-LMS limit ${tonal.stepSizeLimit.toFixed(4)} for a model delay of ${tonal.modelDelay} samples: expect slow ringing or divergence`;
+  }
+  let trackingErrorHz: { rms: number; max: number } | null = null;
+  if (tracked && truth) {
+    if (trackN > 0) trackingErrorHz = { rms: Math.sqrt(trackSq / trackN), max: trackMax };
+    else notes.trackingErrorHz = 'the tone tracker never locked';
+  } else if (tonal) {
+    notes.trackingErrorHz = truth ? `no tracking: the frequency source is "${tonal.frequencySource}"` : 'no tonal source in the scenario';
   }
   const lvl = (p: number): number | null => (p > 0 && Number.isFinite(p) ? powerToDbfs(p) : null);
   const toDbfs = (a: Float64Array): Float64Array => a.map((p) => powerToDbfs(p));
@@ -321,6 +411,8 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     errorOffDbfs: lvl(conv.offPower),
     errorOnDbfs: lvl(conv.onPower),
     clipping: { referenceSamples: clipRef, errorSamples: clipErr },
+    tones,
+    trackingErrorHz,
     notes,
     secondaryPathModel: model,
     timeline: { timeS: conv.timeS, attenuationDb: conv.attenuationOverTimeDb, offDbfs: toDbfs(conv.offPowerOverTime), onDbfs: toDbfs(conv.onPowerOverTime) },

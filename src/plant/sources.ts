@@ -10,20 +10,48 @@ export interface SourceGenerator {
   addTo(out: Float64Array, n: number): void;
   /** Instantaneous frequency (Hz) of a tonal source at the last sample generated, or NaN. */
   readonly currentHz: number;
+  /**
+   * Tonal sources only: the fundamental's phase (rad) and frequency (Hz) at each sample of the last
+   * block, and the linear peak amplitude of each harmonic (index 0 = fundamental).
+   */
+  readonly phases?: Float64Array;
+  readonly frequencies?: Float64Array;
+  readonly harmonicAmplitudes?: readonly number[];
 }
 
 class ToneGen implements SourceGenerator {
   private phase: number;
   private t = 0;
+  private base: number;
+  private baseT = 0;
+  private nextStep = 0;
   currentHz: number;
-  constructor(private readonly hz: number, private readonly amp: number, private readonly drift: number, phaseDeg: number, private readonly fs: number) {
+  readonly phases: Float64Array;
+  readonly frequencies: Float64Array;
+  readonly harmonicAmplitudes: readonly number[];
+  private readonly stepAt: number[];
+  private readonly stepHz: number[];
+  constructor(hz: number, private readonly amp: number, private readonly drift: number, phaseDeg: number, private readonly fs: number, maxBlock: number, steps: readonly { atS: number; hz: number }[] = []) {
     this.phase = (phaseDeg * Math.PI) / 180;
+    this.base = hz;
+    this.stepAt = steps.map((s) => Math.round(s.atS * fs));
+    this.stepHz = steps.map((s) => s.hz);
     this.currentHz = hz;
+    this.phases = new Float64Array(maxBlock);
+    this.frequencies = new Float64Array(maxBlock);
+    this.harmonicAmplitudes = [amp];
   }
   addTo(out: Float64Array, n: number): void {
     const twoPiOverFs = (2 * Math.PI) / this.fs;
     for (let i = 0; i < n; i++) {
-      const f = this.hz + this.drift * (this.t / this.fs);
+      if (this.nextStep < this.stepAt.length && this.t >= this.stepAt[this.nextStep]!) {
+        this.base = this.stepHz[this.nextStep]!;
+        this.baseT = this.t;
+        this.nextStep++;
+      }
+      const f = this.base + this.drift * ((this.t - this.baseT) / this.fs);
+      this.phases[i] = this.phase;
+      this.frequencies[i] = f;
       out[i] = out[i]! + this.amp * Math.sin(this.phase);
       this.phase += twoPiOverFs * f;
       if (this.phase > 2 * Math.PI) this.phase -= 2 * Math.PI;
@@ -37,14 +65,22 @@ class HarmonicsGen implements SourceGenerator {
   private phase = 0;
   private t = 0;
   currentHz: number;
-  constructor(private readonly f0: number, private readonly amps: readonly number[], private readonly drift: number, private readonly fs: number) {
+  readonly phases: Float64Array;
+  readonly frequencies: Float64Array;
+  readonly harmonicAmplitudes: readonly number[];
+  constructor(private readonly f0: number, private readonly amps: readonly number[], private readonly drift: number, private readonly fs: number, maxBlock: number) {
     this.currentHz = f0;
+    this.phases = new Float64Array(maxBlock);
+    this.frequencies = new Float64Array(maxBlock);
+    this.harmonicAmplitudes = amps;
   }
   addTo(out: Float64Array, n: number): void {
     const twoPiOverFs = (2 * Math.PI) / this.fs;
     const amps = this.amps;
     for (let i = 0; i < n; i++) {
       const f = this.f0 + this.drift * (this.t / this.fs);
+      this.phases[i] = this.phase;
+      this.frequencies[i] = f;
       let acc = 0;
       for (let h = 0; h < amps.length; h++) acc += amps[h]! * Math.sin((h + 1) * this.phase);
       out[i] = out[i]! + acc;
@@ -172,12 +208,12 @@ class WavGen implements SourceGenerator {
 /** Decoded WAV sources, keyed by the `file` string of the scenario. Samples at the scenario's rate. */
 export type WavTable = ReadonlyMap<string, Float32Array>;
 
-export function createSource(spec: SourceSpec, index: number, sampleRate: number, seed: number, wavs: WavTable): SourceGenerator {
+export function createSource(spec: SourceSpec, index: number, sampleRate: number, seed: number, wavs: WavTable, maxBlock: number): SourceGenerator {
   switch (spec.kind) {
     case 'tone':
-      return new ToneGen(spec.hz, spec.amplitude, spec.driftHzPerS ?? 0, spec.phaseDeg ?? 0, sampleRate);
+      return new ToneGen(spec.hz, spec.amplitude, spec.driftHzPerS ?? 0, spec.phaseDeg ?? 0, sampleRate, maxBlock, spec.steps);
     case 'harmonics':
-      return new HarmonicsGen(spec.fundamentalHz, spec.amplitudes, spec.driftHzPerS ?? 0, sampleRate);
+      return new HarmonicsGen(spec.fundamentalHz, spec.amplitudes, spec.driftHzPerS ?? 0, sampleRate, maxBlock);
     case 'noise':
       return new NoiseGen(spec.color, spec.rms, spec.bandHz, sampleRate, (seed + 7919 * (index + 1)) >>> 0);
     case 'wav': {

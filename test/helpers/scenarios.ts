@@ -43,11 +43,12 @@ export function noiseScenario(over: Json = {}): Scenario {
   }, over));
 }
 
+/** Deep merge of plain objects; arrays and the `controller` object are replaced whole. */
 export function merge(base: Json, over: Json): Json {
   const out: Json = { ...base };
   for (const [k, v] of Object.entries(over)) {
     const b = out[k];
-    if (v && typeof v === 'object' && !Array.isArray(v) && b && typeof b === 'object' && !Array.isArray(b)) out[k] = merge(b as Json, v as Json);
+    if (k !== 'controller' && v && typeof v === 'object' && !Array.isArray(v) && b && typeof b === 'object' && !Array.isArray(b)) out[k] = merge(b as Json, v as Json);
     else out[k] = v;
   }
   return out;
