@@ -1,0 +1,131 @@
+import type { Controller } from '../dsp/controller.ts';
+import { FD_MAX_PARTITION, FdFxlmsController, type GradientConstraint } from '../dsp/fd-fxlms.ts';
+import { FxlmsController, type FxlmsConfig } from '../dsp/fxlms.ts';
+import { WasmFxlmsController } from '../dsp/wasm-fxlms.ts';
+import { wasmSimdSupported } from '../dsp/wasm-module.ts';
+
+/**
+ * Which code runs an FxLMS / FxNLMS controller. All three compute the equations of src/dsp/fxlms.ts:
+ *
+ * - 'js'   the TypeScript time-domain reference (per-sample or block update); runs everywhere.
+ * - 'wasm' the same time-domain algorithm in the WebAssembly SIMD kernel (needs WebAssembly SIMD).
+ * - 'fd'   partitioned frequency-domain FxLMS (block update only; partition = block size, a power of
+ *          two): its spectral loops run in the WebAssembly SIMD kernel when the platform has it, in
+ *          TypeScript otherwise.
+ *
+ * The automatic choice prefers the time domain for short filters (it keeps the per-sample update the
+ * scenario asked for) and the frequency domain once the filters are long enough for it to be faster;
+ * an explicit `update: 'sample'` keeps the time domain at any length.
+ */
+export type FxlmsImplementation = 'js' | 'wasm' | 'fd';
+export type ImplementationRequest = FxlmsImplementation | 'auto';
+
+export const FXLMS_IMPLEMENTATIONS: readonly FxlmsImplementation[] = ['js', 'wasm', 'fd'];
+
+/**
+ * Taps (L + M) from which the automatic choice takes the frequency domain. From `npm run bench` on
+ * the project's 2-core machines (block 128): the partitioned FD path with SIMD spectral loops passes
+ * the SIMD time-domain kernel between (L, M) = (256, 128) and (512, 256); without SIMD, the FD path in
+ * TypeScript passes the scalar time domain already at (256, 128).
+ */
+export const FD_THRESHOLD_TAPS_WASM = 768;
+export const FD_THRESHOLD_TAPS_JS = 384;
+
+export interface PlatformInfo {
+  /** Whether WebAssembly SIMD runs here (see wasmSimdSupported in src/dsp/wasm-module.ts). */
+  wasmSimd: boolean;
+  /** The user's choice; absent or 'auto' lets the lengths decide. */
+  force?: ImplementationRequest | undefined;
+  /** Secondary-path model length M (taps); default: the control filter length. */
+  modelTaps?: number | undefined;
+  /** The engine's maximum block size; the FD path needs a power of two. Default 128. */
+  maxBlockSize?: number | undefined;
+}
+
+function isPow2Block(n: number): boolean {
+  return Number.isInteger(n) && n >= 2 && n <= FD_MAX_PARTITION && (n & (n - 1)) === 0;
+}
+
+/**
+ * Pick the implementation for a controller configuration on a platform. A forced choice the platform
+ * or the configuration cannot honour is refused with a message naming the field and the reason.
+ */
+export function chooseFxlmsImplementation(config: FxlmsConfig, platform: PlatformInfo): FxlmsImplementation {
+  const force = platform.force ?? 'auto';
+  const block = platform.maxBlockSize ?? 128;
+  const fdBlocker =
+    config.update === 'sample'
+      ? 'controller.update is "sample" and the frequency-domain FxLMS updates once per block'
+      : !isPow2Block(block)
+        ? `the frequency-domain FxLMS needs a block size that is a power of two from 2 to ${FD_MAX_PARTITION}, got ${block}`
+        : null;
+  switch (force) {
+    case 'js':
+      return 'js';
+    case 'wasm':
+      if (!platform.wasmSimd) throw new RangeError('controller.implementation "wasm" needs WebAssembly SIMD, which this platform does not have (use "js" or "auto")');
+      return 'wasm';
+    case 'fd':
+      if (fdBlocker) throw new RangeError(`controller.implementation "fd" cannot run here: ${fdBlocker}`);
+      return 'fd';
+    case 'auto': {
+      const total = config.taps + (platform.modelTaps ?? config.taps);
+      const threshold = platform.wasmSimd ? FD_THRESHOLD_TAPS_WASM : FD_THRESHOLD_TAPS_JS;
+      if (!fdBlocker && total >= threshold) return 'fd';
+      return platform.wasmSimd ? 'wasm' : 'js';
+    }
+    default: {
+      const bad: never = force;
+      throw new RangeError(`controller.implementation must be one of "auto", "js", "wasm", "fd", got ${String(bad)}`);
+    }
+  }
+}
+
+export interface CreateOptions {
+  /** FD gradient constraint (default 'alternating'). */
+  constraint?: GradientConstraint;
+  /** Whether the FD path may use the wasm kernel; default: wasmSimdSupported(). */
+  wasmSimd?: boolean;
+}
+
+/** A controller together with the name of the code that runs it. */
+export type ImplementedController = Controller & { readonly implementation: FxlmsImplementation };
+
+/** Build the controller for an implementation chosen by chooseFxlmsImplementation. */
+export function createFxlmsController(
+  config: FxlmsConfig,
+  secondaryPathModel: Float32Array,
+  maxBlockSize: number,
+  implementation: FxlmsImplementation,
+  options: CreateOptions = {},
+): ImplementedController {
+  switch (implementation) {
+    case 'js': {
+      const c = new FxlmsController(config, secondaryPathModel, maxBlockSize);
+      return Object.assign(c, { implementation: 'js' as const });
+    }
+    case 'wasm':
+      return new WasmFxlmsController(config, secondaryPathModel, maxBlockSize);
+    case 'fd': {
+      const simd = options.wasmSimd ?? wasmSimdSupported();
+      return new FdFxlmsController(config, secondaryPathModel, maxBlockSize, {
+        constraint: options.constraint ?? 'alternating',
+        kernel: simd ? 'wasm' : 'js',
+      });
+    }
+    default: {
+      const bad: never = implementation;
+      throw new RangeError(`unknown FxLMS implementation ${String(bad)}`);
+    }
+  }
+}
+
+/** A short human description for the panel and the CLI summary, e.g. "frequency domain (wasm SIMD, alternating constraint)". */
+export function describeImplementation(c: Controller): string {
+  if (c instanceof FdFxlmsController) {
+    return `frequency domain (${c.kernel === 'wasm' ? 'wasm SIMD' : 'TypeScript'} spectral loops, ${c.constraint} constraint, partition ${c.partitionSize})`;
+  }
+  if (c instanceof WasmFxlmsController) return `time domain (wasm SIMD, ${c.update} update)`;
+  if (c instanceof FxlmsController) return `time domain (TypeScript, ${c.update} update)`;
+  return c.kind;
+}
