@@ -7,6 +7,9 @@ import { loadScenarioFile } from '../io/scenario-file-node.ts';
 import { writeOutputs } from '../io/files-node.ts';
 import { encodeWavFloat32 } from '../io/wav.ts';
 import { simulate, type SimulationResult } from '../plant/simulate.ts';
+import { scenarioCeilingDbfs } from '../plant/scenario.ts';
+import { DEFAULT_CEILING_DBFS } from '../engine/engine.ts';
+import type { EngineEvent } from '../engine/events.ts';
 import { fmtDb, safeJson, stamp, UsageError, type Stamp } from './common.ts';
 import { progressBar } from './progress.ts';
 
@@ -41,6 +44,7 @@ export interface SimulateSummary {
   clipping: { referenceSamples: number; errorSamples: number };
   tones: { hz: number; harmonic: number; source: number; attenuationDb: number | null }[];
   trackingErrorHz: { rms: number; max: number } | null;
+  events: EngineEvent[];
   notes: Record<string, string>;
   stamp: Stamp;
 }
@@ -65,6 +69,7 @@ export function summarize(path: string, r: SimulationResult, st: Stamp, name: st
     clipping: r.clipping,
     tones: r.tones,
     trackingErrorHz: r.trackingErrorHz,
+    events: r.events,
     notes: r.convergenceS === null ? { ...r.notes, convergenceS: 'the trailing 100 ms attenuation never settled within 3 dB of its steady-state value' } : r.notes,
     stamp: st,
   };
@@ -90,6 +95,9 @@ export function readableSummary(s: SimulateSummary): string {
     `diverged      ${s.diverged ? `YES: ${s.divergenceReasons.join('; ')}` : 'no'}`,
   ];
   for (const t of s.tones) lines.push(`tone          ${t.hz.toFixed(1)} Hz (source ${t.source}, harmonic ${t.harmonic}): ${fmtDb(t.attenuationDb)}`);
+  const shown = s.events.filter((e) => e.cause !== 'limiter-engaged');
+  for (const e of shown.slice(0, 8)) lines.push(`event         ${e.timeS.toFixed(3)} s  ${e.cause} → ${e.action}  ${Object.entries(e.values).map(([k, v]) => `${k}=${Number.isFinite(v) ? +v.toPrecision(4) : v}`).join(' ')}`);
+  if (shown.length > 8) lines.push(`event         … ${shown.length - 8} more in summary.json`);
   if (s.trackingErrorHz) lines.push(`tracking      RMS ${s.trackingErrorHz.rms.toFixed(2)} Hz, max ${s.trackingErrorHz.max.toFixed(2)} Hz (from first lock)`);
   for (const [k, v] of Object.entries(s.notes)) lines.push(`note          ${k}: ${v}`);
   return lines.join('\n');
@@ -117,7 +125,7 @@ export async function simulateCommand(argv: string[]): Promise<number> {
   } finally {
     bar.stop();
   }
-  const summary = summarize(path, r, stamp('simulate', sc.seed, loaded.sha256), sc.name, sc.outputCeilingDbfs ?? -6);
+  const summary = summarize(path, r, stamp('simulate', sc.seed, loaded.sha256), sc.name, scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS));
   if (values.out) {
     const sig = r.signals!;
     writeOutputs(values.out, [

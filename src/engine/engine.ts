@@ -1,16 +1,40 @@
 import type { Controller } from '../dsp/controller.ts';
+import { GainRamp } from '../dsp/gain-ramp.ts';
+import { HighPass } from '../dsp/highpass.ts';
+import { OutputLimiter } from '../dsp/limiter.ts';
 import { createController, type ControllerConfig } from './controller-factory.ts';
+import { ACTION, CAUSE, EventRing } from './events.ts';
+import { DivergenceGuard, GuardBlockInfo, type GuardConfig } from './guard.ts';
 
 /**
  * The real-time pipeline for one reference and one error microphone:
  *
- *   guard → controller → output stage (ramp, ceiling) → meters
+ *   guard → controller → high-pass → start/stop ramp → limiter (look-ahead, ceiling) → meters
  *
- * Contract (DESIGN.md): the constructor allocates everything for the largest block; `process`
- * handles one block with no allocation, no closures, no exceptions and no logging. Parameter and
- * mode changes are queued and applied at the next block boundary; starts and stops are ramped.
+ * Every output sample passes the limiter, whose hard ceiling no sample can exceed (non-finite
+ * values become silence and are counted). Contract (DESIGN.md): the constructor allocates everything
+ * for the largest block; `process` handles one block with no allocation, no closures, no exceptions
+ * and no logging. Parameter and mode changes are queued and applied at the next block boundary;
+ * starts and stops are ramped.
+ *
+ * The high-pass and the limiter sit inside the acoustic loop: their delay is part of the secondary
+ * path (identify the path with them in place), and while the limiter reduces gain the effective
+ * secondary path changes, so adaptation is frozen while gain reduction exceeds `freezeAboveDb`.
  */
 export type EngineMode = 'idle' | 'control' | 'muted';
+
+export interface LimiterSettings {
+  /** Sample-peak ceiling in dBFS, −120 … 0. Default −6 dBFS. */
+  ceilingDbfs?: number;
+  /** Look-ahead in ms (0 = zero latency, the default inside the control loop). */
+  lookaheadMs?: number;
+  /** Limit the 4×-oversampled true peak (ITU-R BS.1770-4 Annex 2); needs a few samples of look-ahead. */
+  truePeak?: boolean;
+  attackMs?: number;
+  releaseMs?: number;
+  /** Adaptation is frozen while gain reduction exceeds this (dB). Default 0.5 dB. */
+  freezeAboveDb?: number;
+}
 
 export interface EngineConfig {
   /** Sample rate in Hz (8000 … 192000). */
@@ -20,8 +44,13 @@ export interface EngineConfig {
   controller: ControllerConfig;
   /** Secondary-path model ŝ (taps at the engine's sample rate, bulk delay included). */
   secondaryPathModel: Float32Array;
-  /** Hard output ceiling in dBFS (sample peak), ≤ 0. Default −6 dBFS. */
+  /** Shorthand for limiter.ceilingDbfs. Default −6 dBFS. */
   ceilingDbfs?: number;
+  limiter?: LimiterSettings;
+  /** High-pass corner in Hz protecting small speakers (0 = off). Default 20 Hz. */
+  highPassHz?: number;
+  /** DC blocker corner in Hz (0 = off). Default 2 Hz. */
+  dcBlockerHz?: number;
   /** Fade-in / fade-out time in ms for starts and stops (0 … 5000). Default 50 ms. */
   rampMs?: number;
   /** Mode at construction. Default 'idle'. */
@@ -31,13 +60,18 @@ export interface EngineConfig {
    * FxLMS). It runs frozen while on standby so its delay lines (and tone tracker) stay current.
    */
   standbyController?: ControllerConfig;
+  /** Divergence and fault guard settings (src/engine/guard.ts), or false to run without it. */
+  guard?: Omit<GuardConfig, 'sampleRate' | 'maxBlockSize'> | false;
+  /** Events the ring holds before the oldest is overwritten. Default 256. */
+  eventCapacity?: number;
 }
-
-/** Default crossfade between controllers, ms. */
-export const DEFAULT_CROSSFADE_MS = 200;
 
 export const DEFAULT_CEILING_DBFS = -6;
 export const DEFAULT_RAMP_MS = 50;
+export const DEFAULT_HIGHPASS_HZ = 20;
+export const DEFAULT_FREEZE_ABOVE_DB = 0.5;
+/** Default crossfade between controllers, ms. */
+export const DEFAULT_CROSSFADE_MS = 200;
 
 /** Meters, updated every block into this preallocated object (the host copies what it shows). */
 export class EngineMeters {
@@ -55,6 +89,8 @@ export class EngineMeters {
   outPeak = 0;
   /** Largest output sample peak since the last reset of the meters. */
   maxOutPeak = 0;
+  /** Largest 4×-oversampled true peak of the output since construction (linear). */
+  maxOutTruePeak = 0;
   /** Error power averaged with a ~125 ms time constant (IEC 61672 "F"-like exponential). */
   errPowerFast = 0;
   /** Error power averaged with a ~1 s time constant. */
@@ -66,12 +102,21 @@ export class EngineMeters {
   attenuationSlowDb = NaN;
   /** Current output gain of the start/stop ramp, 0 … 1. */
   rampGain = 0;
-  /** Output samples clamped by the ceiling (cumulative). */
-  ceilingHits = 0;
+  /** Limiter gain reduction now and its maximum since construction, dB (≥ 0). */
+  gainReductionDb = 0;
+  maxGainReductionDb = 0;
+  /** Output ceiling now, linear. */
+  ceiling = 0;
   /** Non-finite output samples replaced by silence (cumulative). */
   nonFiniteOut = 0;
   /** ‖w‖² of the control filter after the last block. */
   weightNormSquared = 0;
+  /** Guard state: 0 running, 1 frozen, 2 muted. */
+  guardState = 0;
+  /** 1 while adaptation is frozen because the limiter is reducing gain. */
+  frozenByLimiter = 0;
+  /** Events recorded since construction (including ones since overwritten in the ring). */
+  events = 0;
 }
 
 export class Engine {
@@ -82,58 +127,90 @@ export class Engine {
   /** The other controller, when one is configured. */
   standby: Controller | null;
   readonly meters = new EngineMeters();
+  /** Guard and limiter events; drain with `drainEvents` (src/engine/events.ts) or `drainInto`. */
+  readonly events: EventRing;
+  readonly limiter: OutputLimiter;
+  readonly guard: DivergenceGuard | null;
+  private readonly highPass: HighPass;
+  private readonly ramp: GainRamp;
+  private readonly info = new GuardBlockInfo();
   private mode: EngineMode;
-  private ceiling: number;
-  private rampStep: number;
-  private rampGain = 0;
-  private rampTarget = 0;
+  private userAdapt = true;
+  private readonly freezeAboveDb: number;
   private readonly ctrlOut: Float32Array;
+  private readonly prevOut: Float32Array;
+  private prevOutN = 0;
   private readonly standbyOut: Float32Array;
   private fadeLeft = 0;
   private fadeTotal = 0;
-  private pendingSwitchMs = NaN;
   private readonly fastCoef: number;
   private readonly slowCoef: number;
   private baselineValid = false;
+  private externalBaseline = NaN;
+  private outputOn = false;
+  private eventsSeen = 0;
   // queued changes, applied at the next block boundary
   private pendingMode: EngineMode | null = null;
   private pendingStepSize = NaN;
   private pendingLeakage = NaN;
-  private pendingCeiling = NaN;
+  private pendingCeilingDb = NaN;
   private pendingAdapt = -1;
   private pendingResetWeights = false;
+  private pendingSwitchMs = NaN;
+  private pendingAcknowledge = false;
 
   constructor(config: EngineConfig) {
     const { sampleRate, maxBlockSize } = config;
     if (!(sampleRate >= 8000 && sampleRate <= 192000)) throw new RangeError(`sampleRate must be 8000 … 192000 Hz, got ${sampleRate}`);
     if (!Number.isInteger(maxBlockSize) || maxBlockSize < 1 || maxBlockSize > 16384) throw new RangeError(`maxBlockSize must be an integer from 1 to 16384, got ${maxBlockSize}`);
-    const ceilingDbfs = config.ceilingDbfs ?? DEFAULT_CEILING_DBFS;
+    const lim = config.limiter ?? {};
+    const ceilingDbfs = lim.ceilingDbfs ?? config.ceilingDbfs ?? DEFAULT_CEILING_DBFS;
     if (!(ceilingDbfs <= 0 && ceilingDbfs >= -120)) throw new RangeError(`ceilingDbfs must be from −120 to 0 dBFS, got ${ceilingDbfs}`);
     const rampMs = config.rampMs ?? DEFAULT_RAMP_MS;
     if (!(rampMs >= 0 && rampMs <= 5000)) throw new RangeError(`rampMs must be from 0 to 5000 ms, got ${rampMs}`);
+    const hp = config.highPassHz ?? DEFAULT_HIGHPASS_HZ;
+    if (!(hp >= 0 && hp < sampleRate / 4)) throw new RangeError(`highPassHz must be from 0 to ${sampleRate / 4} Hz, got ${hp}`);
+    this.freezeAboveDb = lim.freezeAboveDb ?? DEFAULT_FREEZE_ABOVE_DB;
+    if (!(this.freezeAboveDb > 0)) throw new RangeError(`limiter.freezeAboveDb must be > 0 dB, got ${this.freezeAboveDb}`);
     this.sampleRate = sampleRate;
     this.maxBlockSize = maxBlockSize;
     this.controller = createController(config.controller, config.secondaryPathModel, maxBlockSize, sampleRate);
     this.standby = config.standbyController ? createController(config.standbyController, config.secondaryPathModel, maxBlockSize, sampleRate) : null;
     if (this.standby) this.standby.adapt = false;
-    this.ceiling = Math.pow(10, ceilingDbfs / 20);
-    this.rampStep = rampMs > 0 ? 1 / ((rampMs / 1000) * sampleRate) : 1;
+    this.limiter = new OutputLimiter({
+      sampleRate,
+      maxBlockSize,
+      ceilingDbfs,
+      lookaheadMs: lim.lookaheadMs ?? 0,
+      truePeak: lim.truePeak ?? false,
+      ...(lim.attackMs !== undefined ? { attackMs: lim.attackMs } : {}),
+      ...(lim.releaseMs !== undefined ? { releaseMs: lim.releaseMs } : {}),
+    });
+    this.highPass = new HighPass({ sampleRate, cornerHz: hp, dcBlockerHz: config.dcBlockerHz ?? 2 });
+    this.ramp = new GainRamp({ sampleRate, fadeInMs: rampMs, fadeOutMs: rampMs });
+    this.events = new EventRing(config.eventCapacity ?? 256);
+    this.guard = config.guard === false ? null : new DivergenceGuard({ ...(config.guard ?? {}), sampleRate, maxBlockSize }, this.events);
     this.ctrlOut = new Float32Array(maxBlockSize);
+    this.prevOut = new Float32Array(maxBlockSize);
     this.standbyOut = new Float32Array(maxBlockSize);
     this.fastCoef = 0.125 * sampleRate;
     this.slowCoef = 1.0 * sampleRate;
+    this.info.ref = new Float32Array(0);
     this.mode = config.startMode ?? 'idle';
     if (this.mode === 'control') {
-      this.rampTarget = 1;
+      this.ramp.start();
+      this.outputOn = true;
     }
+    this.meters.ceiling = Math.pow(10, ceilingDbfs / 20);
   }
 
   get currentMode(): EngineMode {
     return this.pendingMode ?? this.mode;
   }
 
-  get ceilingLinear(): number {
-    return this.ceiling;
+  /** Output latency the limiter adds (samples): part of the secondary path. */
+  get latencySamples(): number {
+    return this.limiter.latencySamples;
   }
 
   /** Queue a mode change: 'control' fades in, 'idle' fades out, 'muted' fades out and stays silent. */
@@ -146,14 +223,26 @@ export class Engine {
   setLeakage(gamma: number): void {
     if (gamma >= 0 && Number.isFinite(gamma)) this.pendingLeakage = gamma;
   }
+  /** Queue a new ceiling (dBFS, −120 … 0); out-of-range values are ignored (validate at the boundary). */
   setCeilingDbfs(db: number): void {
-    if (db <= 0 && db >= -120) this.pendingCeiling = Math.pow(10, db / 20);
+    if (db <= 0 && db >= -120) this.pendingCeilingDb = db;
   }
   setAdaptation(on: boolean): void {
     this.pendingAdapt = on ? 1 : 0;
   }
   resetWeights(): void {
     this.pendingResetWeights = true;
+  }
+  /** The user's acknowledgement after a guard action: resume as configured. */
+  acknowledge(): void {
+    this.pendingAcknowledge = true;
+  }
+  /**
+   * The control-off error power, when the host knows it better than the engine can (the simulator
+   * knows it exactly). NaN returns to the engine's own estimate from the last time control was off.
+   */
+  setBaselineErrorPower(power: number): void {
+    this.externalBaseline = power;
   }
   /**
    * Hand control to the standby controller with a raised-cosine crossfade (ms): the outgoing one is
@@ -169,20 +258,14 @@ export class Engine {
 
   private applyPending(): void {
     if (this.pendingMode !== null) {
-      const m = this.pendingMode;
+      this.mode = this.pendingMode;
       this.pendingMode = null;
-      if (m !== this.mode) {
-        this.mode = m;
-        this.rampTarget = m === 'control' ? 1 : 0;
-      }
     }
     if (!Number.isNaN(this.pendingSwitchMs) && this.standby) {
       const incoming = this.standby;
-      const adapt = this.controller.adapt;
       this.standby = this.controller;
       this.standby.adapt = false;
       this.controller = incoming;
-      this.controller.adapt = adapt;
       this.fadeTotal = Math.max(1, Math.round((this.pendingSwitchMs / 1000) * this.sampleRate));
       this.fadeLeft = this.fadeTotal;
       this.pendingSwitchMs = NaN;
@@ -196,30 +279,67 @@ export class Engine {
       if (c.setLeakage) c.setLeakage(this.pendingLeakage);
       this.pendingLeakage = NaN;
     }
-    if (!Number.isNaN(this.pendingCeiling)) {
-      this.ceiling = this.pendingCeiling;
-      this.pendingCeiling = NaN;
+    if (!Number.isNaN(this.pendingCeilingDb)) {
+      this.limiter.setCeilingDbfs(this.pendingCeilingDb);
+      this.meters.ceiling = Math.pow(10, this.pendingCeilingDb / 20);
+      this.pendingCeilingDb = NaN;
     }
     if (this.pendingAdapt >= 0) {
-      this.controller.adapt = this.pendingAdapt === 1;
+      this.userAdapt = this.pendingAdapt === 1;
       this.pendingAdapt = -1;
     }
     if (this.pendingResetWeights) {
       this.controller.reset();
       this.pendingResetWeights = false;
     }
+    if (this.pendingAcknowledge) {
+      if (this.guard) this.guard.acknowledge();
+      this.pendingAcknowledge = false;
+    }
   }
 
   /**
    * One block: ref and err are the microphone samples of the same instants; out receives the
-   * loudspeaker signal for those instants. n ≤ maxBlockSize (larger n is processed in pieces of
-   * maxBlockSize would need extra state, so it is clamped: the host must respect maxBlockSize).
+   * loudspeaker signal for those instants. n ≤ maxBlockSize (larger n is clamped: the host must
+   * respect maxBlockSize). Non-finite input samples are replaced by silence in place by the guard.
    */
   process(ref: Float32Array, err: Float32Array, out: Float32Array, n: number): void {
     if (n > this.maxBlockSize) n = this.maxBlockSize;
+    if (n <= 0) return;
     this.applyPending();
     const m = this.meters;
     const y = this.ctrlOut;
+    const lim = this.limiter;
+
+    // Guard first: it sanitises the inputs and decides what the controller may do this block.
+    const guard = this.guard;
+    const baseline = !Number.isNaN(this.externalBaseline) ? this.externalBaseline : this.baselineValid ? m.baselineErrPower : NaN;
+    if (guard) {
+      const info = this.info;
+      info.timeS = m.timeS;
+      info.n = n;
+      info.ref = ref;
+      info.err = err;
+      info.out = this.prevOut;
+      info.outN = this.prevOutN;
+      info.weightNormSq = m.weightNormSquared;
+      info.baselineErrorPower = this.mode === 'control' ? baseline : NaN;
+      info.limiterGainReductionDb = lim.gainReductionDb;
+      const action = guard.check(info);
+      if (action === ACTION.resetWeights || action === ACTION.mute) this.controller.reset();
+    }
+    const limiterFreeze = lim.gainReductionDb > this.freezeAboveDb;
+    const guardAllowsAdapt = guard ? guard.adaptationAllowed : true;
+    const guardAllowsOutput = guard ? guard.outputAllowed : true;
+    this.controller.adapt = this.userAdapt && guardAllowsAdapt && !limiterFreeze;
+
+    // Output gate: the ramp fades in when control is on and the guard allows output, out otherwise.
+    const wantOn = this.mode === 'control' && guardAllowsOutput;
+    if (wantOn !== this.outputOn) {
+      if (wantOn) this.ramp.start();
+      else this.ramp.stop();
+      this.outputOn = wantOn;
+    }
 
     // Input meters.
     let rp = 0, ep = 0, rpk = 0, epk = 0;
@@ -236,8 +356,8 @@ export class Engine {
     rp /= n;
     ep /= n;
 
-    // Controller: it runs while control is on or still fading out, so the fade is smooth.
-    const running = this.mode === 'control' || this.rampGain > 0;
+    // Controller: it runs while output is on or still fading out, so fades are smooth.
+    const running = this.outputOn || !this.ramp.isSilent;
     if (running) {
       this.controller.process(ref, err, y, n);
     } else {
@@ -262,39 +382,31 @@ export class Engine {
         this.fadeLeft = 0;
       }
     }
+    const prev = this.prevOut;
+    for (let i = 0; i < n; i++) prev[i] = y[i]!;
+    this.prevOutN = n;
 
-    // Output stage: ramp, then a hard ceiling no sample can pass; non-finite → silence.
-    const ceil = this.ceiling;
-    let g = this.rampGain;
-    const target = this.rampTarget;
-    const step = this.rampStep;
-    let op = 0, opk = 0, hits = 0, bad = 0;
+    // Output stage: high-pass (speaker protection), ramp, limiter. Nothing reaches `out` otherwise.
+    this.highPass.process(y, y, n);
+    this.ramp.process(y, n);
+    lim.process(y, out, n);
+
+    let op = 0, opk = 0;
     for (let i = 0; i < n; i++) {
-      if (g < target) {
-        g += step;
-        if (g > target) g = target;
-      } else if (g > target) {
-        g -= step;
-        if (g < target) g = target;
-      }
-      let v = y[i]! * g;
-      if (!(v === v) || v === Infinity || v === -Infinity) {
-        v = 0;
-        bad++;
-      } else if (v > ceil) {
-        v = ceil;
-        hits++;
-      } else if (v < -ceil) {
-        v = -ceil;
-        hits++;
-      }
-      out[i] = v;
+      const v = out[i]!;
       op += v * v;
       const av = v < 0 ? -v : v;
       if (av > opk) opk = av;
     }
-    this.rampGain = g;
     op /= n;
+
+    if (lim.blockNonFiniteCount > 0) {
+      const st = this.events.staged;
+      st[0] = m.timeS;
+      st[1] = 2; // NON_FINITE_SOURCES index of 'out'
+      st[2] = lim.blockNonFiniteCount;
+      this.events.commit(CAUSE.nonFinite, ACTION.none);
+    }
 
     // Meter update.
     const fastA = Math.exp(-n / this.fastCoef);
@@ -306,11 +418,15 @@ export class Engine {
       m.errPowerFast = fastA * m.errPowerFast + (1 - fastA) * ep;
       m.errPowerSlow = slowA * m.errPowerSlow + (1 - slowA) * ep;
     }
-    if (this.mode !== 'control' && g === 0) {
+    const gain = this.ramp.gain;
+    if (this.mode !== 'control' && gain === 0) {
       m.baselineErrPower = m.errPowerSlow;
       this.baselineValid = m.baselineErrPower > 0;
+    } else if (!Number.isNaN(this.externalBaseline)) {
+      m.baselineErrPower = this.externalBaseline;
     }
-    if (this.baselineValid && this.mode === 'control') {
+    const haveBaseline = !Number.isNaN(this.externalBaseline) || this.baselineValid;
+    if (haveBaseline && this.mode === 'control') {
       m.attenuationDb = 10 * Math.log10(m.baselineErrPower / m.errPowerFast);
       m.attenuationSlowDb = 10 * Math.log10(m.baselineErrPower / m.errPowerSlow);
     } else {
@@ -326,9 +442,15 @@ export class Engine {
     m.errPeak = epk;
     m.outPeak = opk;
     if (opk > m.maxOutPeak) m.maxOutPeak = opk;
-    m.rampGain = g;
-    m.ceilingHits += hits;
-    m.nonFiniteOut += bad;
+    m.maxOutTruePeak = lim.maxTruePeak;
+    m.rampGain = gain;
+    m.gainReductionDb = lim.gainReductionDb;
+    m.maxGainReductionDb = lim.maxGainReductionDb;
+    m.nonFiniteOut = lim.nonFiniteCount;
     m.weightNormSquared = this.controller.weightNormSquared();
+    m.guardState = guard ? (guard.state === 'running' ? 0 : guard.state === 'frozen' ? 1 : 2) : 0;
+    m.frozenByLimiter = limiterFreeze ? 1 : 0;
+    this.eventsSeen = this.events.pushed;
+    m.events = this.eventsSeen;
   }
 }

@@ -121,6 +121,15 @@ export const scenarioSchema = z.strictObject({
   sensorNoiseRms: sensorNoise.optional(),
   controller: controllerSchema,
   outputCeilingDbfs: num(-120, 0, 'level in dBFS (≤ 0)').optional(),
+  limiter: z.strictObject({
+    ceilingDbfs: num(-120, 0, 'level in dBFS (≤ 0)').optional(),
+    lookaheadMs: num(0, 50, 'time in ms').optional(),
+    truePeak: z.boolean({ error: 'must be true or false' }).optional(),
+    attackMs: num(0, 100, 'time in ms').optional(),
+    releaseMs: num(1, 5000, 'time in ms').optional(),
+  }).optional(),
+  highPassHz: num(0, 1000, 'frequency in Hz (0 = off)').optional(),
+  guard: z.union([z.literal(false), z.record(z.string(), z.unknown())], { error: 'must be false (no guard) or an object of guard settings' }).optional(),
   controlStartS: num(0, 86400).optional(),
 });
 
@@ -211,6 +220,9 @@ export function parseScenario(value: unknown): Scenario {
     if (c.maxHz !== undefined && c.maxHz > s.sampleRate / 4) problems.push(`controller.maxHz: must be at most sampleRate/4 = ${s.sampleRate / 4} Hz, got ${c.maxHz}`);
     if (c.minHz !== undefined && c.maxHz !== undefined && !(c.maxHz >= 1.25 * c.minHz)) problems.push(`controller.maxHz: must be at least 1.25 × minHz = ${1.25 * c.minHz} Hz, got ${c.maxHz}`);
   }
+  if (s.limiter?.ceilingDbfs !== undefined && s.outputCeilingDbfs !== undefined && s.limiter.ceilingDbfs !== s.outputCeilingDbfs) {
+    problems.push(`limiter.ceilingDbfs: ${s.limiter.ceilingDbfs} differs from outputCeilingDbfs ${s.outputCeilingDbfs}; give one of them`);
+  }
   if (s.controlStartS !== undefined && s.controlStartS >= s.durationS) {
     problems.push(`controlStartS: must be before the end of the run (${s.durationS} s), got ${s.controlStartS}`);
   }
@@ -226,4 +238,9 @@ export function isIntegerDelay(delayMs: number, sampleRate: number): boolean {
 /** A path's sparse impulse response at the scenario's sample rate: gain × (fir delayed by delayMs). */
 export function pathResponse(p: PathSpec, sampleRate: number): SparseResponse {
   return buildPathResponse({ delaySamples: (p.delayMs / 1000) * sampleRate, gain: p.gain ?? 1, ...(p.fir ? { fir: p.fir } : {}) });
+}
+
+/** The output ceiling a scenario sets (limiter.ceilingDbfs or its shorthand outputCeilingDbfs), dBFS. */
+export function scenarioCeilingDbfs(s: Scenario, fallback: number): number {
+  return s.limiter?.ceilingDbfs ?? s.outputCeilingDbfs ?? fallback;
 }

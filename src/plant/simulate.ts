@@ -7,7 +7,9 @@
  * One pass computes both runs of the same seed: control off (error = disturbance + sensor noise) and
  * control on. Microphones clip at ±1 (full scale), as a converter would.
  */
-import { Engine, DEFAULT_CEILING_DBFS, type EngineMode } from '../engine/engine.ts';
+import { Engine, DEFAULT_CEILING_DBFS, type EngineConfig, type EngineMode } from '../engine/engine.ts';
+import { HighPass } from '../dsp/highpass.ts';
+import { drainEvents, type EngineEvent } from '../engine/events.ts';
 import type { ControllerConfig } from '../engine/controller-factory.ts';
 import { Random } from '../dsp/random.ts';
 import { convergenceMetrics, type ConvergenceResult } from '../analysis/convergence.ts';
@@ -16,7 +18,7 @@ import { fftConvolve } from '../analysis/fft.ts';
 import { amplitudeToDb, powerToDbfs } from '../dsp/units.ts';
 import { denseResponse } from './fractional-delay.ts';
 import { PathFilter } from './path-filter.ts';
-import { pathResponse, type Scenario } from './scenario.ts';
+import { pathResponse, scenarioCeilingDbfs, ScenarioError, type Scenario } from './scenario.ts';
 import { createSource, type SourceGenerator, type WavTable } from './sources.ts';
 import { imperfectModel } from './secondary-model.ts';
 import { TonalController } from '../dsp/tonal-controller.ts';
@@ -67,6 +69,8 @@ export interface SimulationResult {
   tones: ToneResult[];
   /** Tracking error of the narrowband controller (Hz), from its first lock to the end; null otherwise. */
   trackingErrorHz: { rms: number; max: number } | null;
+  /** Guard and limiter events, in order. */
+  events: EngineEvent[];
   /** Reasons for null figures and other remarks, keyed by field. */
   notes: Record<string, string>;
   /** The model the controller used. */
@@ -151,6 +155,8 @@ export class PlantLoop {
   clipRef = 0;
   clipErr = 0;
   nonFiniteErr = 0;
+  /** 1 s exponential average of the control-off error power (the guard's baseline). */
+  baselinePower = 0;
   readonly sources: SourceGenerator[];
   private readonly refF: PathFilter;
   private readonly priF: PathFilter;
@@ -180,16 +186,28 @@ export class PlantLoop {
     this.priF = new PathFilter(priR.offset, priR.taps, B);
     this.secF = new PathFilter(secR.offset, secR.taps, B);
     this.fbF = fbR ? new PathFilter(fbR.offset, fbR.taps, B) : null;
-    this.trueSecondaryPath = trueSecondaryPath(sc);
+    // What the controller drives is the engine's output stage and then the acoustic path: when the
+    // scenario turns on the speaker high-pass, it is part of the true secondary path as an
+    // identification would see it, and the model built from the truth includes it.
+    const hp = sc.highPassHz ?? 0;
+    this.trueSecondaryPath = hp > 0 ? withHighPass(trueSecondaryPath(sc), hp, fs) : trueSecondaryPath(sc);
     this.secondaryPathModel = opts.secondaryPathModel ?? imperfectModel(this.trueSecondaryPath, sc.controller);
-    this.engine = new Engine({
-      sampleRate: fs,
-      maxBlockSize: B,
-      controller: engineControllerConfig(sc),
-      secondaryPathModel: this.secondaryPathModel,
-      ceilingDbfs: sc.outputCeilingDbfs ?? DEFAULT_CEILING_DBFS,
-      startMode: opts.startMode ?? 'control',
-    });
+    try {
+      this.engine = new Engine({
+        sampleRate: fs,
+        maxBlockSize: B,
+        controller: engineControllerConfig(sc),
+        secondaryPathModel: this.secondaryPathModel,
+        limiter: { ...(sc.limiter ?? {}), ceilingDbfs: scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS) },
+        highPassHz: hp,
+        dcBlockerHz: 0, // the simulated speaker reproduces every frequency the scenario asks for
+        startMode: opts.startMode ?? 'control',
+        ...(sc.guard === false ? { guard: false as const } : sc.guard ? { guard: sc.guard as EngineConfig['guard'] } : {}),
+      });
+    } catch (e) {
+      if (e instanceof RangeError) throw new ScenarioError([`${e.message.startsWith('controller') ? '' : 'guard/controller: '}${e.message}`]);
+      throw e;
+    }
     const sn = sc.sensorNoiseRms;
     this.refNoiseRms = typeof sn === 'number' ? sn : (sn?.reference ?? 0);
     this.errNoiseRms = typeof sn === 'number' ? sn : (sn?.error ?? 0);
@@ -233,11 +251,40 @@ export class PlantLoop {
       if (on > 1) { on = 1; this.clipErr++; } else if (on < -1) { on = -1; this.clipErr++; } else if (on !== on) this.nonFiniteErr++;
       errOn[i] = on;
     }
+    // The simulator knows the control-off error exactly: its 1 s average is the guard's baseline.
+    let p = 0;
+    for (let i = 0; i < n; i++) p += errOff[i]! * errOff[i]!;
+    p /= n;
+    // running mean over the first second (the disturbance may arrive late), then a 1 s exponential average
+    const a = Math.min(Math.exp(-n / this.sampleRate), t / (t + n));
+    this.baselinePower = a * this.baselinePower + (1 - a) * p;
+    this.engine.setBaselineErrorPower(this.baselinePower);
     this.engine.process(ref, errOn, out, n);
     this.secF.push(out, n);
     if (fbF) fbF.push(out, n);
     this.time = t + n;
   }
+}
+
+/** The true path followed by the engine's speaker high-pass (2nd-order Butterworth, no DC blocker). */
+export function withHighPass(path: Float64Array, cornerHz: number, fs: number): Float64Array {
+  const hp = new HighPass({ sampleRate: fs, cornerHz, dcBlockerHz: 0 });
+  // the filter's impulse response until its tail holds less than 1e-7 of its energy (at most 2 s)
+  const maxLen = Math.round(2 * fs);
+  const ir = new Float32Array(maxLen);
+  const one = new Float32Array([1]);
+  const zero = new Float32Array(1);
+  const tmp = new Float32Array(1);
+  let total = 0;
+  for (let i = 0; i < maxLen; i++) {
+    hp.process(i === 0 ? one : zero, tmp, 1);
+    ir[i] = tmp[0]!;
+    total += tmp[0]! * tmp[0]!;
+  }
+  let tail = 0;
+  let len = maxLen;
+  while (len > 1 && tail + ir[len - 1]! ** 2 < 1e-7 * total) tail += ir[--len]! ** 2;
+  return fftConvolve(path, ir.subarray(0, len));
 }
 
 export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationResult {
@@ -272,6 +319,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
 
   let peakOut = 0;
   let lastProgress = -1;
+  const events: EngineEvent[] = [];
   const { ref, errOn, errOff, out, refNoFeedback } = loop;
   // tonal components, demodulated over the last 25 % of the run
   const steadyStart = Math.floor(total * 0.75);
@@ -331,6 +379,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
         if (Math.abs(err) > trackMax) trackMax = Math.abs(err);
       }
     }
+    if (engine.events.size > engine.events.capacity / 2) events.push(...drainEvents(engine.events));
     if (opts.onProgress) {
       const p = Math.floor((100 * (t + n)) / total);
       if (p !== lastProgress) {
@@ -342,7 +391,10 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   const clipRef = loop.clipRef, clipErr = loop.clipErr, nonFinite = loop.nonFiniteErr;
 
   const conv: ConvergenceResult = convergenceMetrics({ hop, sampleRate: fs, off: hopOff, on: hopOn, counts: hopCount }, { controlStartS });
+  events.push(...drainEvents(engine.events));
   const divergenceReasons: string[] = [];
+  const faults = events.filter((e) => e.cause === 'error-rise' || e.cause === 'weights-unbounded' || e.cause === 'output-at-ceiling' || (e.cause === 'non-finite' && e.values.source !== undefined && e.values.source >= 2));
+  if (faults.length) divergenceReasons.push(`the guard acted: ${faults.map((e) => `${e.cause} at ${e.timeS.toFixed(2)} s (${e.action})`).slice(0, 5).join(', ')}${faults.length > 5 ? `, and ${faults.length - 5} more` : ''}`);
   if (conv.diverged) divergenceReasons.push(`error power rose more than 10 dB above control off in a 100 ms window at ${conv.divergedAtS!.toFixed(2)} s`);
   if (nonFinite > 0 || engine.meters.nonFiniteOut > 0) divergenceReasons.push(`non-finite values: ${nonFinite} error samples, ${engine.meters.nonFiniteOut} output samples`);
 
@@ -413,6 +465,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     clipping: { referenceSamples: clipRef, errorSamples: clipErr },
     tones,
     trackingErrorHz,
+    events,
     notes,
     secondaryPathModel: model,
     timeline: { timeS: conv.timeS, attenuationDb: conv.attenuationOverTimeDb, offDbfs: toDbfs(conv.offPowerOverTime), onDbfs: toDbfs(conv.onPowerOverTime) },
