@@ -30,4 +30,9 @@ export interface Controller {
   setStepSize?(mu: number): void;
   /** Change the leakage γ ≥ 0. */
   setLeakage?(gamma: number): void;
+  /**
+   * Replace the secondary-path model in place (same length, or shorter: the rest is zero). For a new
+   * identification during a session, or for fault injection in the simulator. Not per block.
+   */
+  setSecondaryPathModel?(taps: ArrayLike<number>): void;
 }

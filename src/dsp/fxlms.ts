@@ -103,6 +103,19 @@ export class FxlmsController implements Controller {
     if (gamma >= 0 && Number.isFinite(gamma)) this.leakage = gamma;
   }
 
+  setSecondaryPathModel(taps: ArrayLike<number>): void {
+    const n = Math.min(taps.length, this.modelTaps);
+    for (let i = 0; i < n; i++) this.model[i] = taps[i]!;
+    for (let i = n; i < this.modelTaps; i++) this.model[i] = 0;
+  }
+
+  /** Copy the secondary-path model into `out`; returns the count written. */
+  copySecondaryPathModel(out: Float32Array): number {
+    const n = Math.min(out.length, this.modelTaps);
+    for (let i = 0; i < n; i++) out[i] = this.model[i]!;
+    return n;
+  }
+
   /** Clear the weights only (delay lines keep their history). */
   resetWeights(): void {
     this.w.fill(0);

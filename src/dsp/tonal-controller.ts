@@ -276,6 +276,14 @@ export class TonalController implements Controller {
     this.omegaEval = NaN;
   }
 
+  /** Replace the secondary-path model in place (same length or shorter); responses are recomputed. */
+  setSecondaryPathModel(taps: ArrayLike<number>): void {
+    const n = Math.min(taps.length, this.model.length);
+    for (let i = 0; i < n; i++) this.model[i] = taps[i]!;
+    for (let i = n; i < this.model.length; i++) this.model[i] = 0;
+    this.omegaEval = NaN;
+  }
+
   /** Change γ at the next block (γ ≥ 0, μγ < 1). */
   setLeakage(gamma: number): void {
     if (gamma >= 0 && this.stepSize * gamma < 1) this.leakage = gamma;

@@ -131,6 +131,13 @@ export const scenarioSchema = z.strictObject({
   highPassHz: num(0, 1000, 'frequency in Hz (0 = off)').optional(),
   guard: z.union([z.literal(false), z.record(z.string(), z.unknown())], { error: 'must be false (no guard) or an object of guard settings' }).optional(),
   controlStartS: num(0, 86400).optional(),
+  /** Faults injected during the run, to exercise the guard (see README). */
+  faults: z.array(z.discriminatedUnion('kind', [
+    z.strictObject({ kind: z.literal('model-sign-flip'), atS: num(0, 86400, 'time in seconds') }),
+    z.strictObject({ kind: z.literal('step-size-scale'), atS: num(0, 86400, 'time in seconds'), factor: num(1e-6, 1e6) }),
+    z.strictObject({ kind: z.literal('nan-error'), atS: num(0, 86400, 'time in seconds'), durationS: num(0, 86400, 'duration in seconds').optional() }),
+    z.strictObject({ kind: z.literal('mic-dropout'), atS: num(0, 86400, 'time in seconds'), durationS: num(0, 86400, 'duration in seconds'), mic: z.enum(['reference', 'error']) }),
+  ], { error: (iss) => (iss.code === 'invalid_union' ? 'kind must be one of "model-sign-flip", "step-size-scale", "nan-error", "mic-dropout"' : undefined) }), { error: 'must be an array of faults' }).max(1000).optional(),
 });
 
 export type Scenario = z.infer<typeof scenarioSchema>;

@@ -22,6 +22,7 @@ import { pathResponse, scenarioCeilingDbfs, ScenarioError, type Scenario } from 
 import { createSource, type SourceGenerator, type WavTable } from './sources.ts';
 import { imperfectModel } from './secondary-model.ts';
 import { TonalController } from '../dsp/tonal-controller.ts';
+import type { Controller } from '../dsp/controller.ts';
 
 export interface SimulateOptions {
   /** Decoded WAV sources (mono, at the scenario's sample rate), keyed by the scenario's `file`. */
@@ -157,6 +158,16 @@ export class PlantLoop {
   nonFiniteErr = 0;
   /** 1 s exponential average of the control-off error power (the guard's baseline). */
   baselinePower = 0;
+  // injected faults, by sample time
+  private readonly faultAt: number[] = [];
+  private readonly faultSpec: NonNullable<Scenario['faults']>;
+  private nextFault = 0;
+  private dropRefFrom = 0;
+  private dropRefUntil = 0;
+  private dropErrFrom = 0;
+  private dropErrUntil = 0;
+  private nanFrom = 0;
+  private nanUntil = 0;
   readonly sources: SourceGenerator[];
   private readonly refF: PathFilter;
   private readonly priF: PathFilter;
@@ -208,6 +219,8 @@ export class PlantLoop {
       if (e instanceof RangeError) throw new ScenarioError([`${e.message.startsWith('controller') ? '' : 'guard/controller: '}${e.message}`]);
       throw e;
     }
+    this.faultSpec = [...(sc.faults ?? [])].sort((a, b) => a.atS - b.atS);
+    for (const f of this.faultSpec) this.faultAt.push(Math.round(f.atS * fs));
     const sn = sc.sensorNoiseRms;
     this.refNoiseRms = typeof sn === 'number' ? sn : (sn?.reference ?? 0);
     this.errNoiseRms = typeof sn === 'number' ? sn : (sn?.error ?? 0);
@@ -224,9 +237,44 @@ export class PlantLoop {
     this.out = new Float32Array(B);
   }
 
+  /** Faults due in this block take effect at its start (sample-accurate for drop-outs and NaN). */
+  private applyFaults(t: number, n: number): void {
+    while (this.nextFault < this.faultAt.length && this.faultAt[this.nextFault]! < t + n) {
+      const at = this.faultAt[this.nextFault]!;
+      const f = this.faultSpec[this.nextFault]!;
+      this.nextFault++;
+      const c = this.engine.controller as Controller & { stepSize?: number };
+      switch (f.kind) {
+        case 'model-sign-flip': {
+          const flipped = new Float32Array(this.secondaryPathModel.length);
+          for (let i = 0; i < flipped.length; i++) flipped[i] = -this.secondaryPathModel[i]!;
+          c.setSecondaryPathModel?.(flipped);
+          break;
+        }
+        case 'step-size-scale':
+          if (c.stepSize !== undefined) this.engine.setStepSize(c.stepSize * f.factor);
+          break;
+        case 'nan-error':
+          this.nanFrom = at;
+          this.nanUntil = at + Math.max(1, Math.round((f.durationS ?? 0) * this.sampleRate));
+          break;
+        case 'mic-dropout':
+          if (f.mic === 'reference') {
+            this.dropRefFrom = at;
+            this.dropRefUntil = at + Math.round(f.durationS * this.sampleRate);
+          } else {
+            this.dropErrFrom = at;
+            this.dropErrUntil = at + Math.round(f.durationS * this.sampleRate);
+          }
+          break;
+      }
+    }
+  }
+
   /** Advance n ≤ blockSize samples: sources, paths, microphones (clipped at ±1), engine, loudspeaker. */
   step(n: number): void {
     const t = this.time;
+    if (this.faultAt.length) this.applyFaults(t, n);
     const { src, refAc, dAc, loopAc, ref, errOn, errOff, out, refNoFeedback } = this;
     src.fill(0);
     for (let k = 0; k < this.sources.length; k++) this.sources[k]!.addTo(src, n);
@@ -259,6 +307,9 @@ export class PlantLoop {
     const a = Math.min(Math.exp(-n / this.sampleRate), t / (t + n));
     this.baselinePower = a * this.baselinePower + (1 - a) * p;
     this.engine.setBaselineErrorPower(this.baselinePower);
+    if (this.dropRefUntil > t) for (let i = 0; i < n; i++) if (t + i >= this.dropRefFrom && t + i < this.dropRefUntil) ref[i] = 0;
+    if (this.dropErrUntil > t) for (let i = 0; i < n; i++) if (t + i >= this.dropErrFrom && t + i < this.dropErrUntil) errOn[i] = 0;
+    if (this.nanUntil > t) for (let i = 0; i < n; i++) if (t + i >= this.nanFrom && t + i < this.nanUntil) errOn[i] = NaN;
     this.engine.process(ref, errOn, out, n);
     this.secF.push(out, n);
     if (fbF) fbF.push(out, n);
