@@ -7,11 +7,15 @@ import { InputError } from '../io/files-node.ts';
 import { WavError } from '../io/wav.ts';
 import { toolVersion, UsageError } from './common.ts';
 import { simulateCommand } from './simulate-command.ts';
+import { identifyCommand } from './identify-command.ts';
+import { analyzeCommand } from './analyze-command.ts';
 
 type Command = (argv: string[]) => Promise<number>;
 
 const COMMANDS: Record<string, { run: Command; summary: string }> = {
   simulate: { run: simulateCommand, summary: 'run a scenario closed-loop, control off vs on' },
+  identify: { run: identifyCommand, summary: 'identify the secondary path of a scenario\'s simulated plant' },
+  analyze: { run: analyzeCommand, summary: 'coherence bound, causality and band attenuation from recordings' },
 };
 
 function usage(): string {

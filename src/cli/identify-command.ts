@@ -1,0 +1,209 @@
+/**
+ * `ancbench identify <scenario.json> [--method noise|sweep] [--out model.json] [--json]`: measure the secondary
+ * path of the scenario's simulated plant as one would on a real one (controller idle, probe through the output
+ * ceiling, sensor noise at the microphone), print the quality of the estimate and optionally save it as a
+ * path-model file that `controller.modelFile` can name.
+ */
+import { createHash } from 'node:crypto';
+import { basename, dirname } from 'node:path';
+import { parseArgs } from 'node:util';
+import { InputError, readBytes, writeOutputs } from '../io/files-node.ts';
+import { createPathModel, serializePathModel } from '../io/path-model-file.ts';
+import { loadScenarioFile } from '../io/scenario-file-node.ts';
+import { identifySimulated, type IdentifySimResult } from '../plant/identify-sim.ts';
+import { parseScenario, type Scenario } from '../plant/scenario.ts';
+import type { WavTable } from '../plant/sources.ts';
+import { fmtDb, safeJson, stamp, UsageError, type Stamp } from './common.ts';
+import { progressBar } from './progress.ts';
+
+export const IDENTIFY_USAGE = `usage: ancbench identify <scenario.json> [--method noise|sweep] [--out model.json] [--json]
+
+Identifies the secondary path (loudspeaker drive → error microphone, I/O latency included) of the
+scenario's simulated plant: the controller is idle, the probe is played through the output ceiling,
+the microphone adds the scenario's sensor noise. Prints the bulk delay, the measurement SNR and,
+since the true path is known here, the normalised misalignment over the excited band.
+
+  --method M          noise (NLMS with a noise probe, the default) or sweep (exponential sine sweep)
+  --out FILE          save the estimate as a path-model file (JSON, format "ancbench-path-model" v1)
+  --json              print one JSON object on stdout instead of the readable summary
+  --level DBFS        probe level, AES17 dBFS (noise: RMS; sweep: as a sine), −120 to 0 (default −20)
+  --duration S        probe duration in seconds (default: noise max(3, 60·taps/fs), sweep long
+                      enough for the 2nd harmonic to clear the model)
+  --taps N            model length (default: controller.modelTaps, else the true path's length
+                      rounded up to 32)
+  --color C           noise probe colour: white (default) or pink
+  --step-size MU      NLMS normalised step size in (0, 2) (default 0.1)
+  --with-disturbance  keep the scenario's noise sources running while measuring
+  -h, --help          this text`;
+
+/** The printed result: the identification's figures (without the taps), plus where they came from. */
+export type IdentifySummary = Omit<IdentifySimResult, 'taps' | 'truePath' | 'delaySamples' | 'ceilingClippedSamples' | 'micClippedSamples'> & {
+  scenario: string;
+  name: string | null;
+  modelTaps: number;
+  withDisturbance: boolean;
+  clipping: { ceilingSamples: number; micSamples: number };
+  /** The model file written, if any. */
+  model: string | null;
+  stamp: Stamp;
+};
+
+function parseArgsOrThrow(argv: string[]) {
+  try {
+    return parseArgs({
+      args: argv,
+      allowPositionals: true,
+      options: {
+        method: { type: 'string' },
+        out: { type: 'string' },
+        json: { type: 'boolean' },
+        level: { type: 'string' },
+        duration: { type: 'string' },
+        taps: { type: 'string' },
+        color: { type: 'string' },
+        'step-size': { type: 'string' },
+        'with-disturbance': { type: 'boolean' },
+        help: { type: 'boolean', short: 'h' },
+      },
+    });
+  } catch (e) {
+    throw new UsageError(`${(e as Error).message}\n\n${IDENTIFY_USAGE}`);
+  }
+}
+
+/** A numeric flag: a finite number within [min, max] (and whole if asked), or a UsageError naming the flag. */
+export function numberFlag(flag: string, text: string | undefined, min: number, max: number, whole = false): number | undefined {
+  if (text === undefined) return undefined;
+  const v = Number(text);
+  if (text.trim() === '' || !Number.isFinite(v) || v < min || v > max || (whole && !Number.isInteger(v))) {
+    throw new UsageError(`--${flag} must be ${whole ? 'a whole number' : 'a number'} from ${min} to ${max}, got "${text}"`);
+  }
+  return v;
+}
+
+/**
+ * The scenario for identification. A `controller.modelFile` is not read: it is what identify writes, so it
+ * may not exist yet. WAV sources are decoded only when they will play (--with-disturbance).
+ */
+function loadForIdentify(path: string, withDisturbance: boolean): { scenario: Scenario; wavs: WavTable; sha256: string; skippedModelFile: string | null } {
+  const bytes = readBytes(path, 'scenario file');
+  let json: unknown;
+  try {
+    json = JSON.parse(new TextDecoder().decode(bytes));
+  } catch (e) {
+    throw new InputError(`scenario file "${path}" is not valid JSON: ${(e as Error).message}`);
+  }
+  const controller = (json as { controller?: Record<string, unknown> } | null)?.controller;
+  const modelFile = controller && typeof controller === 'object' && typeof controller.modelFile === 'string' ? controller.modelFile : null;
+  if (modelFile === null) {
+    const loaded = loadScenarioFile(path);
+    return { scenario: loaded.scenario, wavs: loaded.wavs, sha256: loaded.sha256, skippedModelFile: null };
+  }
+  const { modelFile: _skip, ...rest } = controller!;
+  const scenario = parseScenario({ ...(json as object), controller: rest });
+  if (withDisturbance && scenario.sources.some((s) => s.kind === 'wav')) {
+    // The WAV sources must be decoded, and the general loader does that (and reads the model file too).
+    const loaded = loadScenarioFile(path);
+    return { scenario, wavs: loaded.wavs, sha256: loaded.sha256, skippedModelFile: modelFile };
+  }
+  return { scenario, wavs: new Map(), sha256: createHash('sha256').update(bytes).digest('hex'), skippedModelFile: modelFile };
+}
+
+export async function identifyCommand(argv: string[]): Promise<number> {
+  const { values, positionals } = parseArgsOrThrow(argv);
+  if (values.help) {
+    process.stdout.write(IDENTIFY_USAGE + '\n');
+    return 0;
+  }
+  if (positionals.length !== 1) throw new UsageError(`identify takes exactly one scenario file, got ${positionals.length}\n\n${IDENTIFY_USAGE}`);
+  const method = values.method ?? 'noise';
+  if (method !== 'noise' && method !== 'sweep') throw new UsageError(`--method must be "noise" or "sweep", got "${method}"`);
+  const color = values.color ?? 'white';
+  if (color !== 'white' && color !== 'pink') throw new UsageError(`--color must be "white" or "pink", got "${color}"`);
+  if (values.color !== undefined && method === 'sweep') throw new UsageError('--color applies to the noise probe only, not to --method sweep');
+  if (values['step-size'] !== undefined && method === 'sweep') throw new UsageError('--step-size applies to the noise probe only, not to --method sweep');
+  const levelDbfs = numberFlag('level', values.level, -120, 0);
+  const durationS = numberFlag('duration', values.duration, 0.01, 3600);
+  const taps = numberFlag('taps', values.taps, 1, 65536, true);
+  const stepSize = numberFlag('step-size', values['step-size'], 1e-6, 1.999);
+  const out = values.out;
+  if (out !== undefined && (out === '' || out.endsWith('/'))) throw new UsageError(`--out must name a file, e.g. model.json, got "${out}"`);
+
+  const path = positionals[0]!;
+  const withDisturbance = Boolean(values['with-disturbance']);
+  const loaded = loadForIdentify(path, withDisturbance);
+  const sc = loaded.scenario;
+  const bar = progressBar(`identifying (${method})`);
+  let r: IdentifySimResult;
+  try {
+    r = identifySimulated(sc, {
+      method,
+      withDisturbance,
+      wavs: loaded.wavs,
+      ...(levelDbfs !== undefined ? { levelDbfs } : {}),
+      ...(durationS !== undefined ? { durationS } : {}),
+      ...(taps !== undefined ? { modelTaps: taps } : {}),
+      ...(method === 'noise' ? { color } : {}),
+      ...(stepSize !== undefined ? { stepSize } : {}),
+      onProgress: (f) => bar.update(f),
+    });
+  } catch (e) {
+    // Probe settings the flags passed but the probe refuses (e.g. a sweep too short for its band).
+    if (e instanceof RangeError) throw new UsageError(e.message);
+    throw e;
+  } finally {
+    bar.stop();
+  }
+  const notes: Record<string, string> = { ...r.notes };
+  if (loaded.skippedModelFile) notes.modelFile = `controller.modelFile "${loaded.skippedModelFile}" was not read: identify measures the true path`;
+  if (r.ceilingClippedSamples > 0) notes.ceiling = `${r.ceilingClippedSamples} probe samples were clipped by the output ceiling: lower --level`;
+  if (r.micClippedSamples > 0) notes.micClipping = `${r.micClippedSamples} microphone samples clipped at full scale: lower --level`;
+  const { taps: _taps, truePath: _truth, delaySamples: _d, ceilingClippedSamples, micClippedSamples, ...figures } = r;
+  const summary: IdentifySummary = {
+    scenario: path,
+    name: sc.name ?? null,
+    ...figures,
+    modelTaps: r.taps.length,
+    withDisturbance,
+    clipping: { ceilingSamples: ceilingClippedSamples, micSamples: micClippedSamples },
+    model: out ?? null,
+    notes,
+    stamp: stamp('identify', sc.seed, loaded.sha256),
+  };
+  if (out !== undefined) {
+    const model = createPathModel({
+      taps: r.taps,
+      sampleRate: r.sampleRate,
+      method: r.method,
+      quality: { snrDb: r.snrDb, ...(r.misalignmentDb !== null ? { misalignmentDb: r.misalignmentDb } : {}), bandHz: r.bandHz },
+      probe: r.method === 'noise' ? { levelDbfs: r.probe.levelDbfs, durationS: r.probe.durationS, color: r.probe.color ?? 'white' } : { levelDbfs: r.probe.levelDbfs, durationS: r.probe.durationS },
+      notes: `identified by ancbench ${summary.stamp.version} on the simulated plant of "${basename(path)}"${withDisturbance ? ' with its noise sources running' : ''}`,
+    });
+    writeOutputs(dirname(out), [{ name: basename(out), data: serializePathModel(model) }]);
+  }
+  if (values.json) process.stdout.write(safeJson(summary, 0) + '\n');
+  else process.stdout.write(readableIdentify(summary) + '\n');
+  return 0;
+}
+
+const ORDINAL: Record<number, string> = { 2: '2nd', 3: '3rd' };
+
+export function readableIdentify(s: IdentifySummary): string {
+  const probe =
+    s.method === 'noise'
+      ? `noise probe (${s.probe.color}, ${s.probe.levelDbfs} dBFS RMS, ${s.probe.durationS.toFixed(2)} s), NLMS`
+      : `exponential sweep (${s.sweep!.startHz.toFixed(0)}–${s.sweep!.endHz.toFixed(0)} Hz, ${s.probe.levelDbfs} dBFS, ${s.probe.durationS.toFixed(2)} s)`;
+  const lines = [
+    `scenario      ${s.scenario}${s.name ? `  (${s.name})` : ''}`,
+    `method        ${probe}, ${s.modelTaps} taps at ${s.sampleRate} Hz${s.withDisturbance ? ', noise sources running' : ''}`,
+    `bulk delay    ${s.delayMs.toFixed(2)} ms  (true path ${s.trueDelayMs === null ? 'silent' : `${s.trueDelayMs.toFixed(2)} ms`}; first tap within 20 dB of the peak)`,
+    `SNR           ${fmtDb(s.snrDb)}  (measurement)`,
+    `misalignment  ${fmtDb(s.misalignmentDb)} over ${s.bandHz[0].toFixed(0)}–${s.bandHz[1].toFixed(0)} Hz  (${fmtDb(s.misalignmentTimeDb)} over the whole band)`,
+  ];
+  if (s.harmonics.length) {
+    lines.push(`harmonics     ${s.harmonics.map((h) => `${ORDINAL[h.order] ?? `${h.order}th`} ${fmtDb(h.levelDb)}`).join(', ')}  (energy relative to the linear response)`);
+  }
+  for (const [k, v] of Object.entries(s.notes)) lines.push(`note          ${k}: ${v}`);
+  if (s.model) lines.push(`wrote         ${s.model}`);
+  return lines.join('\n');
+}
