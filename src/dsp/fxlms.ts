@@ -19,6 +19,11 @@ import type { Controller } from './controller.ts';
  * per-sample gradients of the block (each normalised by its own ‖f‖² in FxNLMS) are summed with the
  * same μ and applied at the block end: w ← (1 − μγ)^n · w − μ · Σ_n e(n)·f(n)[/(δ + ‖f(n)‖²)].
  *
+ * Start-up: until the filtered-reference window has held L samples since the first non-zero f (the
+ * reference arrives, and f lags it by the model's bulk delay), ‖f‖² covers only part of the window
+ * and would make the normalised step explode; the energy is then scaled up to a full window,
+ * ‖f‖²·L/k after k samples, so the first updates have their intended size.
+ *
  * Storage: Float32Array delay lines, mirrored (each sample written at p and p + N) so inner products
  * never wrap. ‖f‖² is a float64 running sum of float32-rounded values (so additions and removals
  * cancel exactly) and is recomputed from the line every few thousand samples.
@@ -60,6 +65,8 @@ export class FxlmsController implements Controller {
   private pf = 0;
   private fEnergy = 0;
   private sinceRecompute = 0;
+  /** Samples since the first non-zero filtered reference, capped at L (start-up scaling of ‖f‖²). */
+  private filled = 0;
 
   constructor(config: FxlmsConfig, secondaryPathModel: Float32Array, maxBlockSize: number) {
     validateFxlmsConfig(config);
@@ -169,6 +176,7 @@ export class FxlmsController implements Controller {
     let pf = this.pf;
     let energy = this.fEnergy;
     let since = this.sinceRecompute;
+    let filled = this.filled;
 
     for (let i = 0; i < n; i++) {
       // push x(n)
@@ -215,8 +223,10 @@ export class FxlmsController implements Controller {
         energy += f * f - leaving * leaving;
       }
 
+      if (filled < L && (filled > 0 || f !== 0)) filled++;
       const e = err[i]!;
-      const c = normalized ? (mu * e) / (reg + (energy > 0 ? energy : 0)) : mu * e;
+      const norm = filled === L ? energy : filled > 0 ? (energy * L) / filled : 0;
+      const c = normalized ? (mu * e) / (reg + (norm > 0 ? norm : 0)) : mu * e;
       if (block) {
         for (k = 0; k < L; k++) grad[k] = grad[k]! + c * fl[pf + k]!;
       } else if (leak === 1) {
@@ -243,6 +253,7 @@ export class FxlmsController implements Controller {
     this.pf = pf;
     this.fEnergy = energy;
     this.sinceRecompute = since;
+    this.filled = filled;
   }
 }
 
