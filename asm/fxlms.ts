@@ -15,7 +15,8 @@
 //    and ŝ are zero, and the update loops stop at L, so padding taps stay frozen at zero. ‖f(n)‖² is a
 //    float64 running sum over the L newest f (never the padding), recomputed every 8192 samples.
 //    Delay lines are mirrored (each sample written at p and p + N) so every inner product is one
-//    contiguous, unaligned v128 run.
+//    contiguous, unaligned v128 run. Start-up: until L samples have followed the first non-zero f,
+//    ‖f‖² is scaled by L/k after k samples, as in the reference.
 //
 // 2. Stateless spectral loops for the partitioned frequency-domain FxLMS: complex multiply-accumulate
 //    over partitions and the unconstrained gradient update, on split (re, im) half spectra whose bin
@@ -46,6 +47,7 @@ let px: i32 = 0;
 let pf: i32 = 0;
 let since: i32 = 0;
 let energy: f64 = 0;
+let filled: i32 = 0;
 
 function align16(p: usize): usize {
   return (p + 15) & ~(<usize>15);
@@ -106,6 +108,7 @@ export function tdInit(taps: i32, modelTaps: i32, blockSize: i32): i32 {
   pf = 0;
   since = 0;
   energy = 0;
+  filled = 0;
   return 1;
 }
 
@@ -130,6 +133,7 @@ export function tdReset(): void {
   pf = 0;
   since = 0;
   energy = 0;
+  filled = 0;
 }
 
 /** Clear the weights and the pending block gradient only. */
@@ -213,10 +217,66 @@ function axpby(dst: usize, src: usize, n: i32, a: f32, c: f32): void {
 }
 
 /**
+ * The per-sample update of sample n − 1 fused with the output of sample n (one pass over w instead
+ * of two): w_k ← w_k − (a·w_k + c·f_k), y = Σ w_k·x_k over k < n, n = L (the padding taps are zero
+ * and stay untouched, so they add nothing to y). Same arithmetic as axpby then a dot product.
+ */
+// @ts-ignore: decorator
+@inline
+function updateDot(w: usize, f: usize, x: usize, n: i32, a: f32, c: f32): f32 {
+  const cv = f32x4.splat(c);
+  let a0 = f32x4.splat(0);
+  let a1 = f32x4.splat(0);
+  let a2 = f32x4.splat(0);
+  let a3 = f32x4.splat(0);
+  const n16 = n & ~15;
+  let k = 0;
+  if (a == 0) {
+    for (; k < n16; k += 16) {
+      const o = <usize>k << 2;
+      const w0 = f32x4.sub(v128.load(w + o), f32x4.mul(cv, v128.load(f + o)));
+      const w1 = f32x4.sub(v128.load(w + o, 16), f32x4.mul(cv, v128.load(f + o, 16)));
+      const w2 = f32x4.sub(v128.load(w + o, 32), f32x4.mul(cv, v128.load(f + o, 32)));
+      const w3 = f32x4.sub(v128.load(w + o, 48), f32x4.mul(cv, v128.load(f + o, 48)));
+      v128.store(w + o, w0);
+      v128.store(w + o, w1, 16);
+      v128.store(w + o, w2, 32);
+      v128.store(w + o, w3, 48);
+      a0 = f32x4.add(a0, f32x4.mul(w0, v128.load(x + o)));
+      a1 = f32x4.add(a1, f32x4.mul(w1, v128.load(x + o, 16)));
+      a2 = f32x4.add(a2, f32x4.mul(w2, v128.load(x + o, 32)));
+      a3 = f32x4.add(a3, f32x4.mul(w3, v128.load(x + o, 48)));
+    }
+  } else {
+    const av = f32x4.splat(a);
+    for (; k < n16; k += 4) {
+      const o = <usize>k << 2;
+      const d = v128.load(w + o);
+      const w0 = f32x4.sub(d, f32x4.add(f32x4.mul(av, d), f32x4.mul(cv, v128.load(f + o))));
+      v128.store(w + o, w0);
+      a0 = f32x4.add(a0, f32x4.mul(w0, v128.load(x + o)));
+    }
+  }
+  const v = f32x4.add(f32x4.add(a0, a1), f32x4.add(a2, a3));
+  let y = f32x4.extract_lane(v, 0) + f32x4.extract_lane(v, 1) + f32x4.extract_lane(v, 2) + f32x4.extract_lane(v, 3);
+  for (; k < n; k++) {
+    const o = <usize>k << 2;
+    const d = load<f32>(w + o);
+    const wk = d - (a * d + c * load<f32>(f + o));
+    store<f32>(w + o, wk);
+    y += wk * load<f32>(x + o);
+  }
+  return y;
+}
+
+/**
  * Process n samples from the ref/err buffers into the out buffer.
  * adapt: 0 freezes the weights; normalized: FxNLMS; blockUpdate: sum the gradients over the block.
  * The float64 parameters come from memory (tdParams), so the host passes no fresh doubles per call:
  * μ the step size, γ the leakage, δ the regularisation, and 1 − (1 − μγ)^n for a block update.
+ * With per-sample updates, the update from sample n − 1 is applied in the same pass that computes
+ * y(n) (before f(n) overwrites the slot of f(n − L) that the update still needs); the last one of
+ * the block is applied at its end, so the weights are current between blocks.
  */
 export function tdProcess(n: i32, adapt: i32, normalized: i32, blockUpdate: i32): void {
   const mu = load<f64>(paramPtr);
@@ -224,6 +284,9 @@ export function tdProcess(n: i32, adapt: i32, normalized: i32, blockUpdate: i32)
   const reg = load<f64>(paramPtr, 16);
   const blockLeakLoss = load<f64>(paramPtr, 24);
   const leakLoss = <f32>(mu * leakage);
+  let pending = false;
+  let pendingC: f32 = 0;
+  let pendingF: usize = 0;
   for (let i = 0; i < n; i++) {
     // push x(n)
     px = px == 0 ? NX - 1 : px - 1;
@@ -233,7 +296,14 @@ export function tdProcess(n: i32, adapt: i32, normalized: i32, blockUpdate: i32)
     const xl = xPtr + (<usize>px << 2);
 
     // y(n) = wᵀx(n) with w(n); padding taps of w are zero
-    store<f32>(outPtr + (<usize>i << 2), dot16(wPtr, xl, Lp));
+    let y: f32;
+    if (pending) {
+      y = updateDot(wPtr, pendingF, xl, L, leakLoss, pendingC);
+      pending = false;
+    } else {
+      y = dot16(wPtr, xl, Lp);
+    }
+    store<f32>(outPtr + (<usize>i << 2), y);
     if (!adapt) continue;
 
     // f(n) = ŝᵀx(n); padding taps of ŝ are zero
@@ -255,14 +325,22 @@ export function tdProcess(n: i32, adapt: i32, normalized: i32, blockUpdate: i32)
       energy += <f64>f * <f64>f - <f64>leaving * <f64>leaving;
     }
 
+    // start-up: until L samples have followed the first non-zero f, ‖f‖² covers part of the window
+    // only and is scaled up to a full one (as src/dsp/fxlms.ts does)
+    if (filled < L && (filled > 0 || f != 0)) filled++;
+    const norm: f64 = filled == L ? energy : filled > 0 ? (energy * <f64>L) / <f64>filled : 0;
     const e = <f64>load<f32>(errPtr + (<usize>i << 2));
-    const c: f64 = normalized ? (mu * e) / (reg + (energy > 0 ? energy : 0)) : mu * e;
+    const c: f64 = normalized ? (mu * e) / (reg + (norm > 0 ? norm : 0)) : mu * e;
     if (blockUpdate) {
       axpby(gPtr, fl, L, 0, <f32>(-c)); // g ← g + c·f
     } else {
-      axpby(wPtr, fl, L, leakLoss, <f32>c); // w ← (1 − μγ)·w − c·f
+      // w ← (1 − μγ)·w − c·f, applied with the next sample's output
+      pending = true;
+      pendingC = <f32>c;
+      pendingF = fl;
     }
   }
+  if (pending) axpby(wPtr, pendingF, L, leakLoss, pendingC);
   if (adapt && blockUpdate) {
     axpby(wPtr, gPtr, L, <f32>blockLeakLoss, 1); // w ← (1 − μγ)^n·w − Σ
     memory.fill(gPtr, 0, <usize>L << 2);
@@ -355,5 +433,72 @@ export function cupdateUnconstrained(wR: usize, wI: usize, fR: usize, fI: usize,
     const dPi = <f64>load<f32>(wI + wo + (<usize>P << 2));
     store<f64>(norms + (<usize>j << 3), (2 * sum - (d0r * d0r + d0i * d0i) - (dPr * dPr + dPi * dPi)) * invN);
     s = s == 0 ? K - 1 : s - 1;
+  }
+}
+
+/**
+ * Glue between fft.js (interleaved float64 complex arrays in this memory) and the split float32
+ * half spectra: the host runs the transforms, these loops move the data.
+ *
+ * packPair: z ← the full N-point spectrum A + i·B (N = 2P) of two Hermitian spectra given as half
+ * spectra: Z[k] = A[k] + i·B[k], Z[N − k] = conj(A[k]) + i·conj(B[k]); its inverse is a + i·b.
+ */
+export function packPair(z: usize, aR: usize, aI: usize, bR: usize, bI: usize, P: i32): void {
+  const N = 2 * P;
+  for (let q = 0; q <= P; q++) {
+    const o = <usize>q << 2;
+    const xr = <f64>load<f32>(aR + o);
+    const xi = <f64>load<f32>(aI + o);
+    const yr = <f64>load<f32>(bR + o);
+    const yi = <f64>load<f32>(bI + o);
+    const zo = z + (<usize>q << 4);
+    store<f64>(zo, xr - yi);
+    store<f64>(zo, xi + yr, 8);
+    if (q > 0 && q < P) {
+      const mo = z + (<usize>(N - q) << 4);
+      store<f64>(mo, xr + yi);
+      store<f64>(mo, yr - xi, 8);
+    }
+  }
+}
+
+/**
+ * unpackPair: the spectrum z = FFT(a + i·b) of two real signals, separated into their half spectra,
+ * A[k] = (Z[k] + conj(Z[N − k]))/2, B[k] = (Z[k] − conj(Z[N − k]))/(2i); bins 0 and P are real.
+ */
+export function unpackPair(z: usize, aR: usize, aI: usize, bR: usize, bI: usize, P: i32): void {
+  const N = 2 * P;
+  store<f32>(aR, <f32>load<f64>(z));
+  store<f32>(aI, 0);
+  store<f32>(bR, <f32>load<f64>(z, 8));
+  store<f32>(bI, 0);
+  for (let q = 1; q < P; q++) {
+    const zo = z + (<usize>q << 4);
+    const mo = z + (<usize>(N - q) << 4);
+    const zr = load<f64>(zo);
+    const zi = load<f64>(zo, 8);
+    const wr = load<f64>(mo);
+    const wi = load<f64>(mo, 8);
+    const o = <usize>q << 2;
+    store<f32>(aR + o, <f32>(0.5 * (zr + wr)));
+    store<f32>(aI + o, <f32>(0.5 * (zi - wi)));
+    store<f32>(bR + o, <f32>(0.5 * (zi + wi)));
+    store<f32>(bI + o, <f32>(0.5 * (wr - zr)));
+  }
+  const po = z + (<usize>P << 4);
+  const o = <usize>P << 2;
+  store<f32>(aR + o, <f32>load<f64>(po));
+  store<f32>(aI + o, 0);
+  store<f32>(bR + o, <f32>load<f64>(po, 8));
+  store<f32>(bI + o, 0);
+}
+
+/** unpackReal: the lower half of a real signal's spectrum (fft.js realTransform) into split form. */
+export function unpackReal(z: usize, dR: usize, dI: usize, P: i32): void {
+  for (let q = 0; q <= P; q++) {
+    const zo = z + (<usize>q << 4);
+    const o = <usize>q << 2;
+    store<f32>(dR + o, <f32>load<f64>(zo));
+    store<f32>(dI + o, q == 0 || q == P ? <f32>0 : <f32>load<f64>(zo, 8));
   }
 }

@@ -30,6 +30,9 @@ export interface FxlmsKernelExports {
   tdWeightNormSquared(): number;
   tdProcess(n: number, adapt: number, normalized: number, blockUpdate: number): void;
   cmacPartitions(accR: number, accI: number, hR: number, hI: number, xR: number, xI: number, K: number, head: number, KX: number, bins: number): void;
+  packPair(z: number, aR: number, aI: number, bR: number, bI: number, P: number): void;
+  unpackPair(z: number, aR: number, aI: number, bR: number, bI: number, P: number): void;
+  unpackReal(z: number, dR: number, dI: number, P: number): void;
   cupdateUnconstrained(wR: number, wI: number, fR: number, fI: number, eR: number, eI: number, K: number, fHead: number, bins: number, P: number, lossPtr: number, norms: number): void;
 }
 
