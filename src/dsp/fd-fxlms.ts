@@ -13,7 +13,11 @@ import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.
  *   output             y_b = last P samples of IFFT( Σ_{j<K_L} W_j · X_{b−j} )
  *   filtered reference f_b = last P samples of IFFT( Σ_{i<K_M} Ŝ_i · X_{b−i} ),  Ŝ_i = FFT([ŝ_i, 0])
  *   scaled error       ε(n) = μ·e(n)                         (FxLMS)
- *                      ε(n) = μ·e(n) / (δ + ‖f(n)‖²)         (FxNLMS; ‖f(n)‖² over the L newest f)
+ *                      ε(n) = μ·e(n) / (δ + ‖f(n)‖²)         (FxNLMS; ‖f(n)‖² over the L newest f,
+ *                                                             scaled by L/k during the first k < L
+ *                                                             samples after the first non-zero f, as
+ *                                                             in fxlms.ts; the alternating constraint
+ *                                                             floors it, see updateAlternating)
  *   gradient           G_j = conj(F_{b−j}) · FFT([0, ε_b]),  F_b = FFT([f_{b−1}, f_b])
  *                      g_j = first P samples of IFFT(G_j)    (the correlation Σ_n ε(n)·f(n − jP − k))
  *   update             w_j ← (1 − μγ)^n · w_j − g_j
@@ -89,7 +93,7 @@ export class FdFxlmsController implements Controller {
   private readonly xWin: Real;
   private readonly fWin: Real;
   private readonly tWin: Real;
-  // fft.js scratch (interleaved complex, 2N)
+  // fft.js scratch (interleaved complex, 2N; inside the kernel's memory with the wasm kernel)
   private readonly spec: Float64Array;
   private readonly zIn: Float64Array;
   private readonly zOut: Float64Array;
@@ -121,7 +125,7 @@ export class FdFxlmsController implements Controller {
   private readonly R: number;
   private readonly wasm: FxlmsKernelExports | null;
   // byte offsets of the split arrays in the kernel's memory (wasm kernel only)
-  private readonly ptr: Record<'Xr' | 'Xi' | 'Sr' | 'Si' | 'Wr' | 'Wi' | 'Fr' | 'Fi' | 'Er' | 'Ei' | 'Yr' | 'Yi' | 'FSr' | 'FSi' | 'norm' | 'loss', number>;
+  private readonly ptr: Record<'Xr' | 'Xi' | 'Sr' | 'Si' | 'Wr' | 'Wi' | 'Fr' | 'Fi' | 'Er' | 'Ei' | 'Yr' | 'Yi' | 'FSr' | 'FSi' | 'norm' | 'loss' | 'spec' | 'zIn' | 'zOut', number>;
   /**
    * [0] the block's leakage factor (1 − μγ)^n, [1] its loss 1 − (1 − μγ)^n (inside the kernel's memory
    * with the wasm kernel). Kept in an array because a fresh double passed to a call that is not
@@ -135,6 +139,8 @@ export class FdFxlmsController implements Controller {
   private parity = 0;
   private fEnergy = 0;
   private sinceRecompute = 0;
+  /** Samples since the first non-zero f, capped at L (start-up scaling of ‖f‖², as in fxlms.ts). */
+  private filled = 0;
 
   constructor(config: FxlmsConfig, secondaryPathModel: Float32Array | Float64Array, maxBlockSize: number, options: FdFxlmsOptions = {}) {
     validateFxlmsConfig(config);
@@ -184,9 +190,6 @@ export class FdFxlmsController implements Controller {
     this.xWin = make(N);
     this.fWin = make(N);
     this.tWin = make(N);
-    this.spec = new Float64Array(2 * N);
-    this.zIn = new Float64Array(2 * N);
-    this.zOut = new Float64Array(2 * N);
     this.wTime = make(constraint === 'full' ? KL * P : 0);
     const gBins = constraint === 'full' ? bins : 0;
     this.gaR = new Float64Array(gBins);
@@ -198,7 +201,7 @@ export class FdFxlmsController implements Controller {
 
     // Split spectra: JS arrays, or float32 views into the kernel's memory laid out here.
     const sizes = { Xr: KX * bins, Xi: KX * bins, Sr: KM * bins, Si: KM * bins, Wr: KL * bins, Wi: KL * bins, Fr: KL * bins, Fi: KL * bins, Er: bins, Ei: bins, Yr: bins, Yi: bins, FSr: bins, FSi: bins };
-    const ptr = { Xr: 0, Xi: 0, Sr: 0, Si: 0, Wr: 0, Wi: 0, Fr: 0, Fi: 0, Er: 0, Ei: 0, Yr: 0, Yi: 0, FSr: 0, FSi: 0, norm: 0, loss: 0 };
+    const ptr = { Xr: 0, Xi: 0, Sr: 0, Si: 0, Wr: 0, Wi: 0, Fr: 0, Fi: 0, Er: 0, Ei: 0, Yr: 0, Yi: 0, FSr: 0, FSi: 0, norm: 0, loss: 0, spec: 0, zIn: 0, zOut: 0 };
     let arrays: Record<keyof typeof sizes, Real>;
     if (kernel === 'wasm') {
       const k = options.module ? instantiateFxlmsKernels(options.module) : instantiateFxlmsKernels();
@@ -213,6 +216,10 @@ export class FdFxlmsController implements Controller {
       const leakBase = base + off;
       ptr.loss = leakBase + 8;
       off += 16;
+      for (const key of ['spec', 'zIn', 'zOut'] as const) {
+        ptr[key] = base + off;
+        off += 2 * N * 8;
+      }
       if (k.reserve(off) !== 1) throw new RangeError(`cannot allocate ${off} bytes of WebAssembly memory for the frequency-domain FxLMS`);
       // Views only now: the memory has reached its final size.
       const buf = k.memory.buffer;
@@ -220,12 +227,18 @@ export class FdFxlmsController implements Controller {
       for (const key of Object.keys(sizes) as (keyof typeof sizes)[]) arrays[key] = new Float32Array(buf, ptr[key], sizes[key]);
       this.partNorm = new Float64Array(buf, ptr.norm, KL);
       this.leak = new Float64Array(buf, ptr.loss - 8, 2); // [factor, loss]: loss at ptr.loss
+      this.spec = new Float64Array(buf, ptr.spec, 2 * N);
+      this.zIn = new Float64Array(buf, ptr.zIn, 2 * N);
+      this.zOut = new Float64Array(buf, ptr.zOut, 2 * N);
       this.wasm = k;
     } else {
       arrays = {} as Record<keyof typeof sizes, Real>;
       for (const key of Object.keys(sizes) as (keyof typeof sizes)[]) arrays[key] = make(sizes[key]);
       this.partNorm = new Float64Array(KL);
       this.leak = new Float64Array(2);
+      this.spec = new Float64Array(2 * N);
+      this.zIn = new Float64Array(2 * N);
+      this.zOut = new Float64Array(2 * N);
       this.wasm = null;
     }
     this.ptr = ptr;
@@ -272,6 +285,7 @@ export class FdFxlmsController implements Controller {
     this.parity = 0;
     this.fEnergy = 0;
     this.sinceRecompute = 0;
+    this.filled = 0;
   }
 
   /** Clear the weights only (delay lines keep their history). */
@@ -357,7 +371,12 @@ export class FdFxlmsController implements Controller {
     for (let i = n; i < P; i++) xw[P + i] = 0;
     const xHead = this.xHead === KX - 1 ? 0 : this.xHead + 1;
     this.xHead = xHead;
-    this.forwardReal(xw, this.Xr, this.Xi, xHead * bins);
+    if (this.wasm) {
+      this.plan.realTransform(this.spec, xw);
+      this.wasm.unpackReal(this.ptr.spec, this.ptr.Xr + 4 * xHead * bins, this.ptr.Xi + 4 * xHead * bins, P);
+    } else {
+      this.forwardReal(xw, this.Xr, this.Xi, xHead * bins);
+    }
 
     // 2. Y = Σ W_j·X_{b−j}; FS = Σ Ŝ_i·X_{b−i} (only while adapting: frozen weights need no f).
     const k = this.wasm;
@@ -375,7 +394,13 @@ export class FdFxlmsController implements Controller {
     }
 
     // 3. One complex inverse gives both: y = Re, f = Im (last P samples).
-    this.inversePair(this.Yr, this.Yi, 0, this.FSr, this.FSi, 0);
+    if (k) {
+      const p = this.ptr;
+      k.packPair(p.zIn, p.Yr, p.Yi, p.FSr, p.FSi, P);
+      this.plan.inverseTransform(this.zOut, this.zIn);
+    } else {
+      this.inversePair(this.Yr, this.Yi, 0, this.FSr, this.FSi, 0);
+    }
     const z = this.zOut;
     for (let i = 0; i < n; i++) out[i] = z[2 * (P + i)]!;
     if (!adapt) return;
@@ -393,6 +418,8 @@ export class FdFxlmsController implements Controller {
     let energy = this.fEnergy;
     let since = this.sinceRecompute;
     let pos = this.fPos;
+    let filled = this.filled;
+    let norm = 0;
     for (let i = 0; i < P; i++) {
       const prev = fw[P + i]!;
       fw[i] = prev;
@@ -419,12 +446,25 @@ export class FdFxlmsController implements Controller {
         energy += f * f - leaving * leaving;
       }
       pos = pos === R - 1 ? 0 : pos + 1;
+      // start-up: until L samples have followed the first non-zero f, scale ‖f‖² to a full window
+      if (filled < L && (filled > 0 || f !== 0)) filled++;
+      norm = filled === L ? energy : filled > 0 ? (energy * L) / filled : 0;
+      zi[2 * (P + i)] = f;
+      zi[2 * (P + i) + 1] = norm > 0 ? norm : 0; // ‖f(n)‖² for now, ε below
+    }
+    this.filled = filled;
+    // ε(n). With the alternating constraint each ‖f(n)‖² is taken at least as large as the block's
+    // last one: the not-yet-projected gradient tails correlate ε(n) with the later f of the block,
+    // and a sample just before an onset (start-up, a silent reference coming alive) would otherwise
+    // put μe/δ-sized values into them. In steady state the two energies differ by a few P/L.
+    const floor = normalized && this.constraint === 'alternating' && norm > 0 ? norm : 0;
+    for (let i = 0; i < P; i++) {
       let eps = 0;
       if (i < n) {
         const e = err[i]!;
-        eps = normalized ? (mu * e) / (reg + (energy > 0 ? energy : 0)) : mu * e;
+        const en = zi[2 * (P + i) + 1]!;
+        eps = normalized ? (mu * e) / (reg + (en > floor ? en : floor)) : mu * e;
       }
-      zi[2 * (P + i)] = f;
       zi[2 * (P + i) + 1] = eps;
     }
     this.fEnergy = energy;
@@ -434,7 +474,13 @@ export class FdFxlmsController implements Controller {
     // 5. F_b into its ring slot and E.
     const fHead = this.fHead === this.KL - 1 ? 0 : this.fHead + 1;
     this.fHead = fHead;
-    this.forwardPairFromZ(this.Fr, this.Fi, fHead * bins, this.Er, this.Ei, 0);
+    if (k) {
+      const p = this.ptr;
+      this.plan.transform(this.spec, this.zIn);
+      k.unpackPair(p.spec, p.Fr + 4 * fHead * bins, p.Fi + 4 * fHead * bins, p.Er, p.Ei, P);
+    } else {
+      this.forwardPairFromZ(this.Fr, this.Fi, fHead * bins, this.Er, this.Ei, 0);
+    }
 
     // 6. Weight update, w ← (1 − μγ)^n·w − g.
     // (1 − μγ)^n, and 1 minus it computed without cancellation for the float32 kernel
@@ -511,7 +557,12 @@ export class FdFxlmsController implements Controller {
     }
   }
 
-  /** W_j ← lf·W_j − conj(F_{b−j})·E for every partition (lf = leak[0]), then the rotating projection. */
+  /**
+   * W_j ← lf·W_j − conj(F_{b−j})·E for every partition (lf = leak[0]), then the rotating projection.
+   * For FxNLMS the scaled error of this path uses max(‖f(n)‖², ‖f(end of block)‖²) (see process):
+   * the first P taps of each partition then follow block NLMS except right at onsets, and the
+   * unprojected tails stay bounded.
+   */
   private updateAlternating(): void {
     const P = this.partitionSize;
     const N = 2 * P;
@@ -530,7 +581,14 @@ export class FdFxlmsController implements Controller {
     const cb = ca + 1 < KL ? ca + 1 : 0;
     const two = KL > 1;
     this.rotate = two ? (cb + 1 < KL ? cb + 1 : 0) : 0;
-    this.inversePair(this.Wr, this.Wi, ca * bins, this.Wr, this.Wi, (two ? cb : ca) * bins);
+    if (k) {
+      const p = this.ptr;
+      const cbb = two ? cb : ca;
+      k.packPair(p.zIn, p.Wr + 4 * ca * bins, p.Wi + 4 * ca * bins, p.Wr + 4 * cbb * bins, p.Wi + 4 * cbb * bins, P);
+      this.plan.inverseTransform(this.zOut, this.zIn);
+    } else {
+      this.inversePair(this.Wr, this.Wi, ca * bins, this.Wr, this.Wi, (two ? cb : ca) * bins);
+    }
     const z = this.zOut;
     const zi = this.zIn;
     const lenA = ca === KL - 1 ? this.lastLen : P;
@@ -545,12 +603,17 @@ export class FdFxlmsController implements Controller {
       eb += vb * vb;
     }
     for (let q = 2 * P; q < 2 * N; q++) zi[q] = 0;
-    if (two) {
+    // the second half spectrum goes to partition cb, or into E (spent by now) as scratch
+    if (k) {
+      const p = this.ptr;
+      this.plan.transform(this.spec, zi);
+      k.unpackPair(p.spec, p.Wr + 4 * ca * bins, p.Wi + 4 * ca * bins, two ? p.Wr + 4 * cb * bins : p.Er, two ? p.Wi + 4 * cb * bins : p.Ei, P);
+    } else if (two) {
       this.forwardPairFromZ(this.Wr, this.Wi, ca * bins, this.Wr, this.Wi, cb * bins);
-      this.partNorm[cb] = eb;
     } else {
-      this.forwardPairFromZ(this.Wr, this.Wi, ca * bins, this.Er, this.Ei, 0); // E is spent: scratch
+      this.forwardPairFromZ(this.Wr, this.Wi, ca * bins, this.Er, this.Ei, 0);
     }
+    if (two) this.partNorm[cb] = eb;
     this.partNorm[ca] = ea;
     // the float32 spectra round the projection: the stored norm is computed from the time samples,
     // which differ from Parseval on the stored spectrum by that rounding only
