@@ -120,6 +120,28 @@ export function createFxlmsController(
   }
 }
 
+/** The implementation fields a scenario's FxLMS controller may carry (see the scenario schema). */
+export interface FxlmsImplementationSettings {
+  /** 'auto' (default) lets filter lengths and platform decide; the others force a choice. */
+  implementation?: ImplementationRequest | undefined;
+  /** Gradient constraint of the frequency-domain path (default 'alternating'). */
+  fdConstraint?: GradientConstraint | undefined;
+}
+
+/**
+ * Choose and build in one step: what the engine's controller factory calls for 'fxlms' / 'fxnlms'.
+ * `wasmSimd` defaults to what this platform supports.
+ */
+export function buildFxlmsController(
+  config: FxlmsConfig & FxlmsImplementationSettings,
+  secondaryPathModel: Float32Array,
+  maxBlockSize: number,
+  wasmSimd: boolean = wasmSimdSupported(),
+): ImplementedController {
+  const implementation = chooseFxlmsImplementation(config, { wasmSimd, force: config.implementation, modelTaps: secondaryPathModel.length, maxBlockSize });
+  return createFxlmsController(config, secondaryPathModel, maxBlockSize, implementation, { wasmSimd, ...(config.fdConstraint ? { constraint: config.fdConstraint } : {}) });
+}
+
 /** A short human description for the panel and the CLI summary, e.g. "frequency domain (wasm SIMD, alternating constraint)". */
 export function describeImplementation(c: Controller): string {
   if (c instanceof FdFxlmsController) {

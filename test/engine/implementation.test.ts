@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
+  buildFxlmsController,
   chooseFxlmsImplementation,
   createFxlmsController,
   describeImplementation,
@@ -76,6 +77,17 @@ describe('createFxlmsController', () => {
     let energy = 0;
     for (const v of outs[0]!) energy += v * v;
     expect(energy).toBeGreaterThan(0.1);
+  });
+
+  it('should choose and build in one step from the scenario fields', () => {
+    const model = new Float32Array(2048).map((_, i) => Math.exp(-i / 100) * 0.1);
+    const auto = buildFxlmsController(long, model, 128, true);
+    expect(auto.implementation).toBe('fd');
+    expect(describeImplementation(auto)).toMatch(/alternating constraint/);
+    const full = buildFxlmsController({ ...long, fdConstraint: 'full' }, model, 128, false);
+    expect(describeImplementation(full)).toMatch(/frequency domain \(TypeScript spectral loops, full constraint/);
+    expect(buildFxlmsController({ ...long, implementation: 'js' }, model, 128, true).implementation).toBe('js');
+    expect(() => buildFxlmsController({ ...long, implementation: 'wasm' }, model, 128, false)).toThrow(/needs WebAssembly SIMD/);
   });
 
   it('should describe each implementation in words for the panel and the CLI', () => {
