@@ -6,9 +6,10 @@
  * What is computed, and how:
  * 1. Reference → error delay by GCC-PHAT on the control-off pair (Knapp & Carter, IEEE Trans. ASSP 24(4),
  *    1976; delay-estimate.ts), both Hann-windowed over the whole record (see the code for why). A peak below
- *    10/√M (M the correlation length) is no detection: the delay is then reported as unknown (delay-estimate.ts
- *    explains the threshold). Polarity is free (a path may invert). Purely tonal noise carries its delay only
- *    modulo its period and usually gives no detection: the verdict is then 'unknown', which is honest.
+ *    10/√M (M the correlation length; delay-estimate.ts explains the threshold), or less than 1.25 times as high as the
+ *    correlation anywhere more than 2 ms from it, is no detection: the delay is then reported as unknown.
+ *    Polarity is free (a path may invert). Purely tonal noise carries its delay only modulo its period and gives
+ *    no detection: the verdict is then 'unknown', which is honest.
  * 2. Coherence γ² between reference and error by Welch's method (Welch, 1967; welch.ts), after removing the
  *    estimated delay to the nearest sample (alignByDelay), since an unremoved delay biases γ² low. Segment
  *    length (ours): about 4 Hz resolution (the power of two nearest fs/4 from above), shortened so that at
@@ -31,13 +32,16 @@
 import { bandAttenuation, type LevelChange } from './band-attenuation.ts';
 import { bandPowers, fractionalOctaveBands, segmentLengthForBands, type BandFraction } from './bands.ts';
 import { causalityVerdict, coherenceBoundSpectrum, overallCoherenceBoundDb, type CausalityVerdictKind } from './bounds.ts';
-import { estimateDelay } from './delay-estimate.ts';
+import { estimateDelay, gccPhat } from './delay-estimate.ts';
 import { nextPow2 } from './fft.ts';
 import { summarizePathModel, type FrequencyResponse } from './path-model.ts';
 import { applyWeightingToPsd, type FrequencyWeighting } from './weighting.ts';
 import { alignByDelay, hannWindow, welchCrossSpectra, welchPsd } from './welch.ts';
 
 type Signal = Float32Array | Float64Array;
+
+/** A delay peak must be this many times higher than any correlation value more than 2 ms away (ours). */
+export const UNIQUE_PEAK_RATIO = 1.25;
 
 /** Fewest samples a recording must hold to be analysed. */
 export const MIN_ANALYSIS_SAMPLES = 1024;
@@ -186,13 +190,32 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
   // The window confines the leakage to a few bins; a delay D ≪ record length is unaffected.
   const window = hannWindow(n);
   const tapered = (x: Signal) => Float64Array.from(x, (v, i) => v * window[i]!);
-  const delay = estimateDelay(tapered(reference), tapered(errorOff), fs, { maxDelayS, polarity: 'either' });
+  const taperedRef = tapered(reference);
+  const taperedErr = tapered(errorOff);
+  const delay = estimateDelay(taperedRef, taperedErr, fs, { maxDelayS, polarity: 'either' });
+  // A detection must clear two tests: the height 10/√M that unrelated signals' correlation stays below, and
+  // uniqueness: at least UNIQUE_PEAK_RATIO times any value more than 2 ms away from it. Tonal signals fail the
+  // second: their correlation repeats every period, so the largest of many near-equal ripples is no delay.
+  // Measured ratios: hum and drifting tones of the demo scenarios 1.02–1.07; broadband ones 4–49; a reverberant
+  // room (test/plant/room-paths.test.ts), whose reflections make peaks of their own, 1.48.
   const threshold = 10 / Math.sqrt(nextPow2(2 * n));
-  const detected = Math.abs(delay.peakValue) >= threshold;
+  const maxLag = Math.floor(maxDelayS * fs + 1e-9);
+  const correlation = gccPhat(taperedRef, taperedErr, { maxLagSamples: maxLag });
+  const peakLag = Math.round(delay.delaySamples);
+  const guard = Math.max(1, Math.round(0.002 * fs));
+  let runnerUp = 0;
+  for (let i = 0; i < correlation.length; i++) {
+    if (Math.abs(i - maxLag - peakLag) > guard) runnerUp = Math.max(runnerUp, Math.abs(correlation[i]!));
+  }
+  const peak = Math.abs(delay.peakValue);
+  const detected = peak >= threshold && peak >= UNIQUE_PEAK_RATIO * runnerUp;
   if (!detected) {
     notes.delay =
-      `no clear delay between the reference and the error microphone (correlation peak ${Math.abs(delay.peakValue).toFixed(4)}, ` +
-      `below ${threshold.toFixed(4)}): the signals share too little broadband content (tonal noise, or unrelated signals)`;
+      peak < threshold
+        ? `no clear delay between the reference and the error microphone (correlation peak ${peak.toFixed(4)}, below ${threshold.toFixed(4)}): ` +
+          'the signals share too little broadband content (tonal noise, or unrelated signals)'
+        : `no clear delay between the reference and the error microphone: the correlation peak (${peak.toFixed(4)}) is not ` +
+          `${UNIQUE_PEAK_RATIO} times higher than the next one (${runnerUp.toFixed(4)}), as with tonal or periodic noise, whose delay is known only modulo its period`;
   }
 
   // 2. Coherence on the aligned pair.

@@ -72,6 +72,23 @@ describe('analyzeRecordings', () => {
     expect(a.notes.delay).toMatch(/no clear delay/);
   });
 
+  it('should not report a delay for periodic noise whose correlation peaks repeat every period', () => {
+    // 78 harmonics of 50 Hz with random phases fill the band, so the whitened correlation is high (above 10/√M),
+    // but at every 20 ms period alike: the delay is known only modulo the period (delay-estimate.ts), so no peak
+    // is 1.25 times the others and the verdict stays unknown. The true delay is 3 ms.
+    const n = 6 * fs;
+    const rng = new Random(2);
+    const phases = Array.from({ length: 78 }, () => 2 * Math.PI * rng.uniform());
+    const periodic = (t: number) => phases.reduce((s, p, h) => s + 0.02 * Math.sin((2 * Math.PI * 50 * (h + 1) * t) / fs + p), 0);
+    const x = new Float64Array(n).map((_, i) => periodic(i) + 0.0005 * rng.gaussian());
+    const y = new Float64Array(n).map((_, i) => 0.6 * periodic(i - 24) + 0.0005 * rng.gaussian());
+    const a = analyzeRecordings({ sampleRate: fs, reference: x, errorOff: y, model: { taps: [0, 1], delayMs: 1 } });
+    expect(Math.abs(a.causality.delayPeak)).toBeGreaterThan(a.causality.delayThreshold);
+    expect(a.causality.primaryDelayMs).toBeNull();
+    expect(a.causality.verdict).toBe('unknown');
+    expect(a.notes.delay).toMatch(/not 1\.25 times higher than the next one/);
+  });
+
   it('should read a sine of amplitude A as 20·log10(A) dBFS in its band, A-weighted by the IEC 61672-1 value', () => {
     // AES17: a full-scale sine reads 0 dBFS. IEC 61260-1 one-third-octave band at 1 kHz holds 1 kHz; IEC 61672-1
     // Table 3: A-weighting at 125 Hz is −16.1 dB (the formula gives −16.19 at exactly 125 Hz).
