@@ -31,12 +31,12 @@
  */
 import { bandAttenuation, type LevelChange } from './band-attenuation.ts';
 import { bandPowers, fractionalOctaveBands, segmentLengthForBands, type BandFraction } from './bands.ts';
-import { causalityVerdict, coherenceBoundSpectrum, overallCoherenceBoundDb, type CausalityVerdictKind } from './bounds.ts';
+import { causalityVerdict, coherenceBoundDb as boundOfCoherence, coherenceBoundSpectrum, overallCoherenceBoundDb, type CausalityVerdictKind } from './bounds.ts';
 import { estimateDelay, gccPhat } from './delay-estimate.ts';
 import { nextPow2 } from './fft.ts';
 import { summarizePathModel, type FrequencyResponse } from './path-model.ts';
 import { applyWeightingToPsd, type FrequencyWeighting } from './weighting.ts';
-import { alignByDelay, hannWindow, welchCrossSpectra, welchPsd } from './welch.ts';
+import { alignByDelay, coherenceDelayBias, hannWindow, welchCrossSpectra, welchPsd } from './welch.ts';
 
 type Signal = Float32Array | Float64Array;
 
@@ -228,6 +228,12 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
   if (cross.segmentCount < 16) {
     notes.coherence = `only ${cross.segmentCount} segments were averaged for the coherence: it reads high between unrelated signals (about 1/${cross.segmentCount}); record longer`;
   }
+  if (!detected) {
+    const cap = boundOfCoherence(coherenceDelayBias(0.01 * fs, lc));
+    notes.alignment =
+      'no delay was found to align the reference and error before the coherence was estimated: an unremoved delay lowers it ' +
+      `(a 10 ms delay would cap the bound near ${cap.toFixed(0)} dB with these ${((1000 * lc) / fs).toFixed(0)} ms segments), so read the bound as a lower estimate`;
+  }
   const boundSpectrum = coherenceBoundSpectrum(cross.coherence);
 
   // Bands covered: IEC 61260-1 bands wholly below fs/2.
@@ -282,6 +288,12 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
     return row;
   });
   const overall: LevelChange | { offDb: number } = onPsd ? levels.overall : { offDb: levels.overall.offDb };
+  if (onPsd && levels.overall.attenuationDb > coherenceBoundDb + 3) {
+    notes.boundExceeded =
+      `control removed ${levels.overall.attenuationDb.toFixed(1)} dB, more than the ${coherenceBoundDb.toFixed(1)} dB coherence bound: the bound holds for a ` +
+      'fixed linear filter of this reference, so the controller used something else (its own tonal reference from the error signal), or tracked ' +
+      'noise that changes over time (a drifting tone), or the bound read low (see the other notes)';
+  }
 
   // Spectra for plots at the coherence resolution (the band PSDs may have 10⁴–10⁵ bins).
   const plotPsd = (x: Signal) => welchPsd(x, fs, { segmentLength: Math.min(lc, floorPow2(x.length)) });
