@@ -119,6 +119,18 @@ describe('analyzeRecordings', () => {
     expect(offOnly.overall).not.toHaveProperty('onDb');
   });
 
+  it('should say when control removed more than the bound allows a fixed filter of this reference', () => {
+    // Reference unrelated to the error (γ² ≈ 1/n_d, bound ≈ 0 dB) but the error is 30 dB quieter with control on,
+    // as with a tonal controller that takes its reference from the error signal.
+    const rng = new Random(6);
+    const x = new Float64Array(4 * fs).map(() => 0.1 * rng.gaussian());
+    const y = new Float64Array(4 * fs).map(() => 0.1 * rng.gaussian());
+    const a = analyzeRecordings({ sampleRate: fs, reference: x, errorOff: y, errorOn: y.map((v) => v * 10 ** (-30 / 20)) });
+    expect(a.coherenceBoundDb).toBeLessThan(0.5);
+    expect(a.notes.boundExceeded).toMatch(/^control removed 30\.0 dB, more than the 0\.\d dB coherence bound/);
+    expect(a.notes.alignment).toMatch(/no delay was found to align/);
+  });
+
   it('should use the common length of a reference and error of different lengths, and say so', () => {
     const { x, y } = delayedPair(3 * fs, 24, 0.8, 0.001);
     const a = analyzeRecordings({ sampleRate: fs, reference: x, errorOff: y.subarray(0, 2 * fs) });
