@@ -12,6 +12,21 @@ export default defineConfig({
           testTimeout: 60_000,
         },
       },
+      {
+        // Node drives Debian's Chromium with Playwright against a production build of the page
+        // (test/browser/global-setup.ts). One file at a time, after the unit tests: real-time audio
+        // needs the CPU.
+        test: {
+          name: 'browser',
+          include: ['test/browser/**/*.test.ts'],
+          environment: 'node',
+          globalSetup: ['test/browser/global-setup.ts'],
+          fileParallelism: false,
+          sequence: { groupOrder: 1 },
+          testTimeout: 90_000,
+          hookTimeout: 90_000,
+        },
+      },
     ],
   },
 });

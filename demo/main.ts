@@ -2,6 +2,7 @@
  * The demo page: mounts the panel on the demo scenarios (bundled into the page, so nothing is
  * fetched), opening on the workshop extractor hum.
  */
+import '../src/web/zod-jitless.ts';
 import '../src/ui/app.ts';
 import { parseScenario } from '../src/plant/scenario.ts';
 import type { ScenarioEntry } from '../src/ui/sim-source.ts';

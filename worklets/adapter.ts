@@ -18,17 +18,19 @@ import {
   type EventCause,
   type TelemetryOptions,
   type AudioChunkMessage,
+  type PortLike,
 } from '../src/engine/messages.ts';
 import type { Engine } from '../src/engine/engine.ts';
 
 /** Smallest interval between two events of the same cause while the condition persists, s. */
 const EVENT_REPEAT_S = 1;
+const THROTTLE_SLOTS = 4;
 
 export class Telemetry {
   readonly frame = new Float64Array(METER_FRAME_LENGTH);
   readonly shared: boolean;
   private readonly writer: TelemetryWriter | null;
-  private readonly port: WorkletPort;
+  private readonly port: PortLike;
   private readonly meterMsg: { type: 'meters'; frame: Float64Array };
   private readonly eventMsg: { type: 'event'; record: Float64Array };
   private readonly record = new Float64Array(EVENT_RECORD_LENGTH);
@@ -46,14 +48,14 @@ export class Telemetry {
   private monitorPk = 0;
   private gr = 0;
 
-  constructor(port: WorkletPort, options: TelemetryOptions, rate: number) {
+  constructor(port: PortLike, options: TelemetryOptions, rate: number) {
     this.port = port;
     this.writer = options.sharedBuffer ? new TelemetryWriter(options.sharedBuffer) : null;
     this.shared = this.writer !== null;
     this.meterMsg = { type: 'meters', frame: this.frame };
     this.eventMsg = { type: 'event', record: this.record };
     this.samplesPerFrame = Math.max(1, Math.round(rate / options.displayRateHz));
-    this.lastEventS = new Float64Array(32).fill(-Infinity);
+    this.lastEventS = new Float64Array(64 * THROTTLE_SLOTS).fill(-Infinity);
   }
 
   /** Add one block's levels (mean squares and peaks over its n samples). */
@@ -100,11 +102,13 @@ export class Telemetry {
     f[M.attenuationDb] = m.attenuationDb;
     f[M.attenuationSlowDb] = m.attenuationSlowDb;
     f[M.rampGain] = m.rampGain;
-    f[M.ceilingDbfs] = 20 * Math.log10(engine.ceilingLinear);
-    f[M.ceilingHits] = m.ceilingHits;
+    f[M.ceilingDbfs] = engine.limiter.ceilingDbfs;
     f[M.nonFiniteOut] = m.nonFiniteOut;
     f[M.weightNormSquared] = m.weightNormSquared;
     f[M.limiterGainReductionDb] = this.gr;
+    f[M.maxTruePeak] = m.maxOutTruePeak;
+    f[M.guardState] = m.guardState;
+    f[M.frozenByLimiter] = m.frozenByLimiter;
     f[M.errOffPower] = this.errOffSum / c;
     f[M.monitorPeak] = this.monitorPk;
     f[M.adapting] = engine.controller.adapt ? 1 : 0;
@@ -122,10 +126,12 @@ export class Telemetry {
    * Send an event. With `throttle`, a cause that fired less than EVENT_REPEAT_S ago is held back
    * (the condition persists; its counters keep counting in the meters).
    */
-  event(timeS: number, cause: EventCause, action: EventAction, v0 = NaN, v1 = NaN, v2 = NaN, throttle = true): void {
+  event(timeS: number, cause: EventCause, action: EventAction, v0 = NaN, v1 = NaN, v2 = NaN, throttle = true, slot = 0): void {
     const code = causeCode(cause);
-    if (throttle && timeS - this.lastEventS[code]! < EVENT_REPEAT_S) return;
-    this.lastEventS[code] = timeS;
+    // throttled per cause and slot (e.g. per microphone channel)
+    const key = code * THROTTLE_SLOTS + slot;
+    if (throttle && timeS - this.lastEventS[key]! < EVENT_REPEAT_S) return;
+    this.lastEventS[key] = timeS;
     const r = this.record;
     r[0] = timeS;
     r[1] = code;
@@ -133,7 +139,22 @@ export class Telemetry {
     r[3] = v0;
     r[4] = v1;
     r[5] = v2;
-    if (this.writer) this.writer.writeEvent(r);
+    r[6] = NaN;
+    this.send();
+  }
+
+  /** Forward an event record already encoded (the engine's own events), unthrottled. */
+  forward(timeS: number, cause: number, action: number, values: Float64Array, offset: number, count: number): void {
+    const r = this.record;
+    r[0] = timeS;
+    r[1] = cause;
+    r[2] = action;
+    for (let k = 0; k < EVENT_RECORD_LENGTH - 3; k++) r[3 + k] = k < count ? values[offset + k]! : NaN;
+    this.send();
+  }
+
+  private send(): void {
+    if (this.writer) this.writer.writeEvent(this.record);
     else this.port.postMessage(this.eventMsg);
   }
 }
@@ -144,13 +165,9 @@ export class Telemetry {
  * through standardized-audio-context's wrapper) reads as silence.
  */
 export class InputConditioner {
-  /** Non-finite samples replaced in the last call, and in total. */
-  badLast = 0;
+  /** Non-finite samples replaced since begin(), per input channel (0, 1), and in total. */
+  readonly badLast = new Float64Array(2);
   badTotal = 0;
-  /** Channel count seen in the last call (0 = disconnected). */
-  channels = -1;
-  /** Channel that carried the last non-finite sample. */
-  badChannel = -1;
 
   /** Copy n samples of channel `ch` of `input` from `offset` to `dest`; returns false when the channel is missing. */
   copy(input: Float32Array[] | undefined, ch: number, offset: number, dest: Float32Array, n: number): boolean {
@@ -170,16 +187,16 @@ export class InputConditioner {
       }
     }
     if (bad > 0) {
-      this.badLast += bad;
+      if (ch < 2) this.badLast[ch] = this.badLast[ch]! + bad;
       this.badTotal += bad;
-      this.badChannel = ch;
     }
     return true;
   }
 
   /** Count channels that arrived with data (call once per quantum before copy()). */
   begin(input: Float32Array[] | undefined): number {
-    this.badLast = 0;
+    this.badLast[0] = 0;
+    this.badLast[1] = 0;
     let c = 0;
     if (input !== undefined) for (let i = 0; i < input.length; i++) if (input[i]!.length > 0) c++;
     return c;
@@ -191,7 +208,7 @@ export class InputConditioner {
  * port (a MessagePort the page attached; chunks are dropped while none is attached).
  */
 export class ChunkSender {
-  private port: WorkletPort | null = null;
+  private port: PortLike | null = null;
   private readonly size: number;
   private readonly msg: AudioChunkMessage;
   private fill = 0;
@@ -209,7 +226,7 @@ export class ChunkSender {
     };
   }
 
-  attach(port: WorkletPort | null): void {
+  attach(port: PortLike | null): void {
     if (this.port) this.port.close();
     this.port = port;
   }

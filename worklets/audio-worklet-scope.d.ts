@@ -7,7 +7,7 @@ interface WorkletMessageEvent {
 }
 
 interface WorkletPort {
-  postMessage(message: unknown, transfer?: unknown[]): void;
+  postMessage(message: unknown, transfer?: ArrayBuffer[]): void;
   onmessage: ((event: WorkletMessageEvent) => void) | null;
   close(): void;
 }

@@ -1,16 +1,16 @@
 /**
- * Where the engine's own protection meets the panel's event list. Today the engine reports ceiling
- * clamps and silenced non-finite outputs as cumulative counters in its meters; this module turns
- * their increments into events. When the engine's guard and limiter publish events of their own
- * (issue 5: src/engine/events.ts, src/dsp/limiter.ts), drain them here, and let `outputStage`
- * route the probe through the engine's limiter, so the worklets need no other change.
+ * Where the engine meets the panel: messages that only touch the engine, the engine's events
+ * (guard, limiter and non-finite output, drained from its ring and forwarded unchanged), the
+ * controller-specific meters (tone follower), and the output stage of the identification probe.
  */
 import type { Engine } from '../src/engine/engine.ts';
-import { parseControlMessage, type ControlMessage } from '../src/engine/messages.ts';
+import { createEventBatch, VALUES_PER_EVENT, type EventBatch } from '../src/engine/events.ts';
+import { parseControlMessage, harmonicIndex, M, MAX_PANEL_HARMONICS, type ControlMessage, type PortLike } from '../src/engine/messages.ts';
+import { createHarmonicReadout, type TonalController } from '../src/dsp/tonal-controller.ts';
 import type { Telemetry } from './adapter.ts';
 
 /** Validate a message from the page; an invalid one is answered with an 'error' message and dropped. */
-export function receive(port: WorkletPort, data: unknown, rate: number): ControlMessage | null {
+export function receive(port: PortLike, data: unknown, rate: number): ControlMessage | null {
   try {
     return parseControlMessage(data, rate);
   } catch (e) {
@@ -19,11 +19,16 @@ export function receive(port: WorkletPort, data: unknown, rate: number): Control
   }
 }
 
+function tonal(engine: Engine): TonalController | null {
+  return engine.controller.kind === 'tonal' ? (engine.controller as unknown as TonalController) : null;
+}
+
 /**
- * Apply a message that only changes the running engine (queued by the engine to the next block
- * boundary). Returns false for messages the processor handles itself.
+ * Apply a message that only changes the running engine (the engine queues it to the next block
+ * boundary; tone-follower settings are applied by the controller at its next block). Runs between
+ * render quanta, on the audio thread. Returns false for messages the processor handles itself.
  */
-export function applyEngineMessage(engine: Engine, msg: ControlMessage): boolean {
+export function applyEngineMessage(engine: Engine, msg: ControlMessage, port: PortLike): boolean {
   switch (msg.type) {
     case 'set-step-size':
       engine.setStepSize(msg.value);
@@ -40,6 +45,24 @@ export function applyEngineMessage(engine: Engine, msg: ControlMessage): boolean
     case 'reset-weights':
       engine.resetWeights();
       return true;
+    case 'acknowledge':
+      engine.acknowledge();
+      return true;
+    case 'set-harmonics':
+    case 'set-frequency-source': {
+      const t = tonal(engine);
+      if (!t) {
+        port.postMessage({ type: 'error', message: `"${msg.type}" needs the tonal controller` });
+        return true;
+      }
+      try {
+        if (msg.type === 'set-harmonics') t.setHarmonics(msg.harmonics);
+        else t.setFrequencySource(msg.source, msg.hz);
+      } catch (e) {
+        port.postMessage({ type: 'error', message: (e as Error).message });
+      }
+      return true;
+    }
     default:
       return false;
   }
@@ -52,40 +75,57 @@ export function copyWeights(engine: Engine): Float32Array {
   return w.slice(0, count);
 }
 
-/** Counter totals already turned into events. */
+/** The batch the engine's event ring drains into, and a readout for the tone follower. */
 export class EngineEventState {
-  hits = 0;
-  bad = 0;
-  reset(): void {
-    this.hits = 0;
-    this.bad = 0;
+  readonly batch: EventBatch = createEventBatch(32);
+  readonly harmonic = createHarmonicReadout();
+}
+
+/** Forward the engine's own events (guard, limiter, non-finite output) and note the block's gain reduction. */
+export function relayEngineEvents(engine: Engine, tel: Telemetry, state: EngineEventState): void {
+  tel.addGainReduction(engine.meters.gainReductionDb);
+  const ring = engine.events;
+  while (ring.size > 0) {
+    const b = state.batch;
+    const n = ring.drainInto(b);
+    for (let i = 0; i < n; i++) tel.forward(b.timeS[i]!, b.cause[i]!, b.action[i]!, b.values, i * VALUES_PER_EVENT, VALUES_PER_EVENT);
   }
 }
 
-/** Turn counter increments of the last block into (throttled) events. */
-export function relayEngineEvents(engine: Engine, tel: Telemetry, state: EngineEventState): void {
-  const m = engine.meters;
-  const hits = m.ceilingHits - state.hits;
-  const bad = m.nonFiniteOut - state.bad;
-  state.hits = m.ceilingHits;
-  state.bad = m.nonFiniteOut;
-  if (bad > 0) tel.event(m.timeS, 'output-non-finite', 'silenced', bad);
-  if (hits > 0) tel.event(m.timeS, 'ceiling-hit', 'clamped', hits, 20 * Math.log10(m.outPeak));
+/** Non-finite input samples, as the engine's 'non-finite' cause (source 0 ref, 1 err). */
+export function inputNonFinite(tel: Telemetry, timeS: number, channel: number, count: number): void {
+  tel.event(timeS, 'non-finite', 'none', channel, count, NaN, true, channel + 1);
+}
+
+/** Tone-follower fields of a meter frame (NaN when the narrowband controller is not in charge). */
+export function fillEngineExtras(engine: Engine, frame: Float64Array, state: EngineEventState): void {
+  const t = tonal(engine);
+  const h = t ? t.harmonics : 0;
+  frame[M.toneHz] = t ? t.frequencyHz : NaN;
+  frame[M.toneLocked] = t ? (t.trackerLocked ? 1 : 0) : NaN;
+  frame[M.toneHarmonics] = t ? h : NaN;
+  const r = state.harmonic;
+  for (let k = 1; k <= MAX_PANEL_HARMONICS; k++) {
+    const ok = t !== null && k <= h && t.readHarmonic(k, r);
+    frame[harmonicIndex(k, 0)] = ok ? r.frequencyHz : NaN;
+    frame[harmonicIndex(k, 1)] = ok ? r.disturbanceAmplitude : NaN;
+    frame[harmonicIndex(k, 2)] = ok ? r.residualAmplitude : NaN;
+    frame[harmonicIndex(k, 3)] = ok ? r.counterPhaseDeg : NaN;
+    frame[harmonicIndex(k, 4)] = ok ? r.attenuationDb : NaN;
+  }
 }
 
 /**
- * The output stage for signals that do not come from the engine (the identification probe):
- * non-finite → 0, then a hard clamp at the ceiling. Returns the block's peak.
+ * The output stage of the identification probe: the engine's own limiter (same ceiling, same
+ * latency, so the measured path includes it), called while the engine is idle and not processing.
+ * The engine's high-pass is not applied to the probe (it is private to the engine): below about
+ * twice its corner the model misses the high-pass's phase lead. Returns the block's peak.
  */
-export function outputStage(x: Float32Array, n: number, ceiling: number): number {
+export function probeOutputStage(engine: Engine, x: Float32Array, out: Float32Array, n: number): number {
+  engine.limiter.process(x, out, n);
   let pk = 0;
   for (let i = 0; i < n; i++) {
-    let v = x[i]!;
-    if (!(v - v === 0)) v = 0;
-    else if (v > ceiling) v = ceiling;
-    else if (v < -ceiling) v = -ceiling;
-    x[i] = v;
-    const a = v < 0 ? -v : v;
+    const a = out[i]! < 0 ? -out[i]! : out[i]!;
     if (a > pk) pk = a;
   }
   return pk;

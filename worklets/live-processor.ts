@@ -1,8 +1,8 @@
 import { Engine } from '../src/engine/engine.ts';
 import { ExponentialSweep } from '../src/dsp/sweep.ts';
-import { M, MODE_CODES, checkTelemetryOptions, type LiveProcessorOptions, type ProbeSpec } from '../src/engine/messages.ts';
+import { M, MODE_CODES, checkTelemetryOptions, type LiveProcessorOptions, type ProbeSpec, type PortLike } from '../src/engine/messages.ts';
 import { ChunkSender, InputConditioner, Telemetry, levels } from './adapter.ts';
-import { receive, applyEngineMessage, copyWeights, relayEngineEvents, EngineEventState, outputStage } from './engine-events.ts';
+import { receive, applyEngineMessage, copyWeights, fillEngineExtras, inputNonFinite, relayEngineEvents, EngineEventState, probeOutputStage } from './engine-events.ts';
 
 /**
  * Live processor: one input (channel 0 = reference mic, channel 1 = error mic; or the error mic alone
@@ -30,14 +30,15 @@ class LiveProcessor extends AudioWorkletProcessor {
   private readonly ref: Float32Array;
   private readonly err: Float32Array;
   private readonly out: Float32Array;
+  private readonly probeBuf: Float32Array;
   private readonly lv = new Float64Array(2);
   private lastChannels = -1;
   private warnedChannels = false;
   private state: 'run' | 'probe-wait' | 'probe' | 'stopping' | 'stopped' = 'run';
   private sweep: ExponentialSweep | null = null;
   private probe: ProbeSpec | null = null;
-  private recErr: Float32Array | null = null;
-  private recRef: Float32Array | null = null;
+  private recErr: Float32Array<ArrayBuffer> | null = null;
+  private recRef: Float32Array<ArrayBuffer> | null = null;
   private recPos = 0;
   private probePeak = 0;
 
@@ -55,6 +56,7 @@ class LiveProcessor extends AudioWorkletProcessor {
     this.ref = new Float32Array(maxQuantum);
     this.err = new Float32Array(maxQuantum);
     this.out = new Float32Array(maxQuantum);
+    this.probeBuf = new Float32Array(maxQuantum);
     this.telemetry = new Telemetry(this.port, telemetry, sampleRate);
     this.chunks = new ChunkSender(telemetry.chunkSamples, sampleRate, false);
     this.port.onmessage = (e) => this.onMessage(e.data);
@@ -67,7 +69,7 @@ class LiveProcessor extends AudioWorkletProcessor {
       maxBlockSize: this.opts.maxQuantum,
       controller,
       secondaryPathModel: model,
-      ceilingDbfs: this.engine ? 20 * Math.log10(this.engine.ceilingLinear) : this.opts.ceilingDbfs,
+      ceilingDbfs: this.engine ? this.engine.limiter.ceilingDbfs : this.opts.ceilingDbfs,
       ...(this.opts.rampMs !== undefined ? { rampMs: this.opts.rampMs } : {}),
       startMode,
     });
@@ -77,7 +79,7 @@ class LiveProcessor extends AudioWorkletProcessor {
     const msg = receive(this.port, data, sampleRate);
     if (msg === null) return;
     const engine = this.engine;
-    if (applyEngineMessage(engine, msg)) return;
+    if (applyEngineMessage(engine, msg, this.port)) return;
     switch (msg.type) {
       case 'set-mode':
         if (this.state === 'run') engine.setMode(msg.mode);
@@ -86,7 +88,6 @@ class LiveProcessor extends AudioWorkletProcessor {
         try {
           // a new engine starts from its own (ramped) mode; the old one is dropped between quanta
           this.engine = this.buildEngine(msg.secondaryPathModel, msg.controller, msg.startMode ?? 'idle');
-          this.evState.reset();
           this.port.postMessage({ type: 'configured', modelTaps: msg.secondaryPathModel.length });
         } catch (e) {
           this.port.postMessage({ type: 'error', message: (e as Error).message });
@@ -117,7 +118,7 @@ class LiveProcessor extends AudioWorkletProcessor {
         this.port.postMessage({ type: 'weights', weights: copyWeights(engine) });
         break;
       case 'attach-analysis':
-        this.chunks.attach(msg.port as WorkletPort);
+        this.chunks.attach(msg.port as PortLike);
         break;
       case 'set-monitor':
         break; // simulated plant only
@@ -153,7 +154,7 @@ class LiveProcessor extends AudioWorkletProcessor {
     const cond = this.cond;
     const channels = cond.begin(input);
     const timeS = this.engine.meters.timeS;
-    if (channels === 0 && this.lastChannels !== 0) tel.event(timeS, 'input-missing', 'silenced', 0, NaN, NaN, false);
+    if (channels === 0 && this.lastChannels !== 0) tel.event(timeS, 'input-missing', 'none', 0, NaN, NaN, false);
     if (channels > 0 && this.lastChannels === 0) tel.event(timeS, 'input-restored', 'none', channels, NaN, NaN, false);
     if (channels === 1 && this.opts.inputLayout === 'ref-err' && !this.warnedChannels) {
       this.warnedChannels = true;
@@ -172,14 +173,17 @@ class LiveProcessor extends AudioWorkletProcessor {
       if (out0 !== undefined) for (let i = 0; i < m; i++) out0[off + i] = this.out[i]!;
     }
     if (output !== undefined) for (let c = 1; c < output.length; c++) output[c]!.set(out0!);
-    if (cond.badLast > 0) tel.event(timeS, 'input-non-finite', 'silenced', cond.badLast, cond.badChannel);
+    // input channel c carries microphone c in the ref-err layout; in err-only channel 0 is the error mic
+    for (let c = 0; c < 2; c++) {
+      const bad = cond.badLast[c]!;
+      if (bad > 0) inputNonFinite(tel, timeS, this.opts.inputLayout === 'ref-err' ? c : 1, bad);
+    }
 
     if (tel.due) {
       tel.fillFromEngine(this.engine);
+      fillEngineExtras(this.engine, tel.frame, this.evState);
       const f = tel.frame;
       f[M.mode] = this.state === 'probe' || this.state === 'probe-wait' ? 3 : MODE_CODES.indexOf(this.engine.currentMode);
-      f[M.toneHz] = NaN;
-      f[M.toneLocked] = NaN;
       f[M.inputChannels] = channels;
       f[M.quantum] = n;
       f[M.probeProgress] = this.state === 'probe' && this.recErr ? this.recPos / this.recErr.length : NaN;
@@ -200,8 +204,8 @@ class LiveProcessor extends AudioWorkletProcessor {
     const engine = this.engine;
     const tel = this.telemetry;
     if (this.state === 'probe' && this.sweep && this.recErr && this.recRef) {
-      this.sweep.process(this.out, m);
-      const pk = outputStage(this.out, m, engine.ceilingLinear);
+      this.sweep.process(this.probeBuf, m);
+      const pk = probeOutputStage(engine, this.probeBuf, this.out, m);
       if (pk > this.probePeak) this.probePeak = pk;
       const room = this.recErr.length - this.recPos;
       const k = m < room ? m : room;

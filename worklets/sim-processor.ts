@@ -1,8 +1,9 @@
 import { PlantLoop } from '../src/plant/simulate.ts';
+import { OutputLimiter } from '../src/dsp/limiter.ts';
 import type { Scenario } from '../src/plant/scenario.ts';
-import { M, MODE_CODES, checkTelemetryOptions, type SimProcessorOptions } from '../src/engine/messages.ts';
+import { M, MODE_CODES, checkTelemetryOptions, type SimProcessorOptions, type PortLike } from '../src/engine/messages.ts';
 import { ChunkSender, Telemetry, levels } from './adapter.ts';
-import { receive, applyEngineMessage, copyWeights, relayEngineEvents, EngineEventState, outputStage } from './engine-events.ts';
+import { receive, applyEngineMessage, copyWeights, fillEngineExtras, relayEngineEvents, EngineEventState } from './engine-events.ts';
 
 /**
  * Simulated-plant processor: no input; runs the scenario's closed loop (sources, paths, microphones,
@@ -15,7 +16,8 @@ import { receive, applyEngineMessage, copyWeights, relayEngineEvents, EngineEven
  * loop, or several when a quantum is longer than the block.
  *
  * Listening path: error-mic signal (control on, or the control-off twin for comparison) × monitor
- * gain, then the output stage (non-finite → 0, hard clamp at the monitor cap).
+ * gain, then its own output limiter (zero-latency mode: smooth gain reduction, then a hard ceiling at
+ * the monitor cap; non-finite samples become silence). Like every output path, it ends in a limiter.
  *
  * Bundle rules: imports first, no exports, no top-level side effects besides registerProcessor.
  */
@@ -25,9 +27,10 @@ class SimProcessor extends AudioWorkletProcessor {
   private readonly chunks: ChunkSender;
   private readonly evState = new EngineEventState();
   private readonly mon: Float32Array;
+  private readonly monOut: Float32Array;
+  private readonly monitorLimiter: OutputLimiter;
   private readonly lv = new Float64Array(2);
   private monitorGain: number;
-  private readonly monitorCeiling: number;
   private monitorSource: 'on' | 'off' = 'on';
   private state: 'run' | 'stopping' | 'stopped' = 'run';
 
@@ -44,8 +47,9 @@ class SimProcessor extends AudioWorkletProcessor {
     const telemetry = checkTelemetryOptions(o.telemetry);
     this.loop = new PlantLoop(sc, { startMode: o.startMode ?? 'idle' });
     this.mon = new Float32Array(sc.blockSize);
+    this.monOut = new Float32Array(sc.blockSize);
+    this.monitorLimiter = new OutputLimiter({ sampleRate, maxBlockSize: sc.blockSize, ceilingDbfs: o.monitorCeilingDbfs });
     this.monitorGain = Math.pow(10, o.monitorGainDb / 20);
-    this.monitorCeiling = Math.pow(10, o.monitorCeilingDbfs / 20);
     this.telemetry = new Telemetry(this.port, telemetry, sampleRate);
     this.chunks = new ChunkSender(telemetry.chunkSamples, sampleRate, true);
     this.port.onmessage = (e) => this.onMessage(e.data);
@@ -69,7 +73,7 @@ class SimProcessor extends AudioWorkletProcessor {
     const msg = receive(this.port, data, sampleRate);
     if (msg === null) return;
     const engine = this.loop.engine;
-    if (applyEngineMessage(engine, msg)) return;
+    if (applyEngineMessage(engine, msg, this.port)) return;
     switch (msg.type) {
       case 'set-mode':
         if (this.state === 'run') engine.setMode(msg.mode);
@@ -79,7 +83,7 @@ class SimProcessor extends AudioWorkletProcessor {
         this.monitorSource = msg.source;
         break;
       case 'attach-analysis':
-        this.chunks.attach(msg.port as WorkletPort);
+        this.chunks.attach(msg.port as PortLike);
         break;
       case 'request-weights':
         this.port.postMessage({ type: 'weights', weights: copyWeights(engine) });
@@ -113,8 +117,9 @@ class SimProcessor extends AudioWorkletProcessor {
       const src = this.monitorSource === 'on' ? loop.errOn : loop.errOff;
       const g = this.monitorGain;
       for (let i = 0; i < m; i++) this.mon[i] = src[i]! * g;
-      const monPk = outputStage(this.mon, m, this.monitorCeiling);
-      for (let i = 0; i < m; i++) out0[off + i] = this.mon[i]!;
+      this.monitorLimiter.process(this.mon, this.monOut, m);
+      const monPk = this.monitorLimiter.blockSamplePeak;
+      for (let i = 0; i < m; i++) out0[off + i] = this.monOut[i]!;
       const em = engine.meters;
       tel.addBlock(m, em.refPower, em.errPower, em.outPower, em.refPeak, em.errPeak, em.outPeak);
       levels(loop.errOff, m, lv);
@@ -125,10 +130,9 @@ class SimProcessor extends AudioWorkletProcessor {
     for (let c = 1; c < output!.length; c++) output![c]!.set(out0);
     if (tel.due) {
       tel.fillFromEngine(engine);
+      fillEngineExtras(engine, tel.frame, this.evState);
       const f = tel.frame;
       f[M.mode] = MODE_CODES.indexOf(engine.currentMode);
-      f[M.toneHz] = NaN;
-      f[M.toneLocked] = NaN;
       f[M.inputChannels] = 2;
       f[M.quantum] = n;
       f[M.probeProgress] = NaN;

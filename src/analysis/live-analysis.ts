@@ -19,7 +19,7 @@ import { nextPow2 } from './fft.ts';
 import type { ProbeSpec, AudioChunkMessage } from '../engine/messages.ts';
 
 /** Seconds of audio kept per signal for spectra and geometry. */
-export const HISTORY_S = 3;
+export const HISTORY_S = 2;
 
 export interface SpectraView {
   frequencyHz: Float64Array;
@@ -51,6 +51,8 @@ export interface IdentificationResult {
   feedbackRatioDb: number;
   /** Problems a user should act on (quiet probe, no response, strong feedback). */
   warnings: string[];
+  /** False when the measurement is too poor to control with (the panel then asks before loading it). */
+  usable: boolean;
   sampleRate: number;
 }
 
@@ -81,6 +83,13 @@ export interface GeometryResult {
   peakValue: number;
   note: string;
 }
+
+/**
+ * Below this measurement SNR a model is not loaded without the user's say-so (our threshold: at
+ * 10 dB the model's error is about a third of its magnitude, enough to slow FxLMS or, with the phase
+ * error it brings, to destabilise it; Morgan 1980 bounds the phase error at 90°, from memory).
+ */
+export const MIN_USABLE_SNR_DB = 10;
 
 /** Number of samples of model kept before the onset (pre-ringing of the band-limited estimate). */
 export const ONSET_GUARD_SAMPLES = 8;
@@ -243,7 +252,14 @@ export class LiveAnalysis {
       throw new RangeError('the error mic recorded nothing during the probe: check the input device and the error channel');
     }
     const onset = onsetDelaySamples(e.linearIr);
-    if (e.snrDb !== null && e.snrDb < 10) warnings.push(`low measurement SNR (${e.snrDb.toFixed(1)} dB): raise the probe level a little or reduce background noise`);
+    const usable = e.snrDb === null || e.snrDb >= MIN_USABLE_SNR_DB;
+    if (!usable) {
+      warnings.push(
+        e.snrDb! < 0
+          ? 'no response to the probe: the error mic does not seem to hear the loudspeaker (check the output device, the volume and the error channel)'
+          : `low measurement SNR (${e.snrDb!.toFixed(1)} dB): raise the probe level a little or reduce background noise`,
+      );
+    }
     if (onset + firTaps > irLength) warnings.push('the response runs past the analysed window: the model is cut short');
     const feedbackRatioDb = peakR > 0 ? 20 * Math.log10(peakR / peakE) : -Infinity;
     if (feedbackRatioDb > -6) warnings.push(`the loudspeaker reaches the reference mic strongly (${feedbackRatioDb.toFixed(1)} dB relative to the error mic): expect feedback; move the reference mic away from the loudspeaker`);
@@ -257,7 +273,7 @@ export class LiveAnalysis {
       const w = fromEnd < taper ? 0.5 - 0.5 * Math.cos((Math.PI * (fromEnd + 1)) / (taper + 1)) : 1;
       model[i] = e.linearIr[i]! * w;
     }
-    return { model, delaySamples: onset, delayMs: (1000 * onset) / fs, snrDb: e.snrDb, feedbackRatioDb, warnings, sampleRate: fs };
+    return { model, delaySamples: onset, delayMs: (1000 * onset) / fs, snrDb: e.snrDb, feedbackRatioDb, warnings, usable, sampleRate: fs };
   }
 
   pathView(model: Float32Array, sampleRate: number, truePath: Float32Array | null = null): PathView {

@@ -14,6 +14,15 @@
  */
 import type { ControllerConfig } from './controller-factory.ts';
 import type { EngineMode } from './engine.ts';
+import {
+  EVENT_ACTIONS,
+  EVENT_CAUSES as ENGINE_EVENT_CAUSES,
+  EVENT_VALUE_NAMES,
+  VALUES_PER_EVENT,
+  type EngineEvent,
+  type EventAction as EngineEventAction,
+  type EventCause as EngineEventCause,
+} from './events.ts';
 
 // ---------------------------------------------------------------------------------------------
 // Meter frame: one Float64Array per display frame; index names below. Powers are mean squares
@@ -41,12 +50,17 @@ export const METER_FIELDS = [
   'rampGain',
   /** Output cap in dBFS (sample peak). */
   'ceilingDbfs',
-  /** Cumulative output samples clamped at the cap, and non-finite output samples silenced. */
-  'ceilingHits',
+  /** Non-finite output samples silenced (cumulative). */
   'nonFiniteOut',
   'weightNormSquared',
-  /** Largest limiter gain reduction over the frame, dB ≥ 0 (0 while no limiter is wired). */
+  /** Largest limiter gain reduction over the frame, dB ≥ 0. */
   'limiterGainReductionDb',
+  /** Largest 4×-oversampled true peak of the output so far (ITU-R BS.1770-4 Annex 2), linear. */
+  'maxTruePeak',
+  /** Guard state: 0 running, 1 adaptation frozen, 2 muted. */
+  'guardState',
+  /** 1 while adaptation is frozen because the limiter reduces gain. */
+  'frozenByLimiter',
   /** Control-off error power over the frame (simulated plant only; NaN live). */
   'errOffPower',
   /** Peak of what was played to the loudspeaker for listening (simulated plant only; NaN live). */
@@ -55,9 +69,10 @@ export const METER_FIELDS = [
   'mode',
   /** 1 while the control filter adapts, 0 frozen. */
   'adapting',
-  /** Tone follower: tracked frequency in Hz and lock (1/0); NaN when no tone follower runs. */
+  /** Tone follower: tracked fundamental in Hz, lock (1/0) and harmonics controlled; NaN when no tone follower runs. */
   'toneHz',
   'toneLocked',
+  'toneHarmonics',
   /** Input channels received in the last render quantum (0: input disconnected). */
   'inputChannels',
   /** Samples in the last render quantum. */
@@ -68,60 +83,98 @@ export const METER_FIELDS = [
   'nonFiniteIn',
 ] as const;
 
+/** Tone follower, per harmonic k = 1 … MAX_PANEL_HARMONICS, after the fields above (NaN when absent). */
+export const MAX_PANEL_HARMONICS = 8;
+export const HARMONIC_FIELDS = [
+  /** k·f₀, Hz. */
+  'Hz',
+  /** Peak amplitude of the disturbance at the error mic (before control) and of the residual (after). */
+  'Before',
+  'After',
+  /** Counter-signal phase at the error mic relative to the disturbance, degrees (±180 = anti-phase). */
+  'PhaseDeg',
+  /** 20·log10(before / after), dB. */
+  'AttDb',
+] as const;
+
 export type MeterField = (typeof METER_FIELDS)[number];
-export const METER_FRAME_LENGTH = METER_FIELDS.length;
+export const METER_FRAME_LENGTH = METER_FIELDS.length + MAX_PANEL_HARMONICS * HARMONIC_FIELDS.length;
 /** Index of each field in a meter frame. */
 export const M = Object.fromEntries(METER_FIELDS.map((k, i) => [k, i])) as { readonly [K in MeterField]: number };
+
+/** Index of harmonic k's field j (j indexes HARMONIC_FIELDS). */
+export function harmonicIndex(k: number, j: number): number {
+  return METER_FIELDS.length + (k - 1) * HARMONIC_FIELDS.length + j;
+}
 
 export const MODE_CODES = ['idle', 'control', 'muted', 'identify'] as const;
 export type PanelMode = (typeof MODE_CODES)[number];
 
 /** Read a meter frame into a plain object (allocates: for tests and logs, not for the display loop). */
-export function meterFrameToObject(frame: ArrayLike<number>): Record<MeterField, number> {
-  const o = {} as Record<MeterField, number>;
-  for (let i = 0; i < METER_FRAME_LENGTH; i++) o[METER_FIELDS[i]!] = frame[i]!;
+export function meterFrameToObject(frame: ArrayLike<number>): Record<string, number> {
+  const o: Record<string, number> = {};
+  for (let i = 0; i < METER_FIELDS.length; i++) o[METER_FIELDS[i]!] = frame[i]!;
+  for (let k = 1; k <= MAX_PANEL_HARMONICS; k++) {
+    for (let j = 0; j < HARMONIC_FIELDS.length; j++) o[`h${k}${HARMONIC_FIELDS[j]}`] = frame[harmonicIndex(k, j)]!;
+  }
   return o;
 }
 
 // ---------------------------------------------------------------------------------------------
-// Events: time, cause, action and up to three values. One shape on every thread; the worklet
-// sends them as numeric records [timeS, cause code, action code, v0, v1, v2].
+// Events: the engine's shape (events.ts: time, cause, values, action) and its documented causes and
+// actions, plus a few causes only the hosts can see (appended after the engine's, codes stable).
+// The worklet sends them as numeric records [timeS, cause code, action code, v0 … v3].
 // ---------------------------------------------------------------------------------------------
 
-/**
- * The documented list of event causes, with the names of their values. Guard causes from the
- * engine's guard join this list when it is wired (keep codes stable: append only).
- */
-export const EVENT_CAUSES = {
-  'input-non-finite': { text: 'input sample was NaN or infinite', values: ['samples', 'channel'] },
-  'input-missing': { text: 'input disconnected or empty', values: ['channels'] },
-  'input-restored': { text: 'input connected again', values: ['channels'] },
-  'output-non-finite': { text: 'controller produced a non-finite sample', values: ['samples'] },
-  'ceiling-hit': { text: 'output held at the cap', values: ['samples', 'peakDbfs'] },
-  'channel-count': { text: 'microphone delivered fewer channels than needed', values: ['expected', 'received'] },
-  'latency-change': { text: 'audio latency changed', values: ['beforeMs', 'afterMs'] },
-  'device-change': { text: 'audio devices changed', values: [] },
-  'error-rise': { text: 'error level rose above the control-off level', values: ['riseDb', 'forS'] },
-  'underrun': { text: 'audio output underran (overload)', values: ['events', 'durationMs'] },
-  'probe-done': { text: 'identification probe finished', values: ['samples', 'peakDbfs'] },
-  'limiter-gain-reduction': { text: 'limiter reducing gain', values: ['gainReductionDb'] },
-  'guard': { text: 'guard action', values: ['v0', 'v1', 'v2'] },
-} as const;
-export type EventCause = keyof typeof EVENT_CAUSES;
-export const EVENT_CAUSE_CODES = Object.keys(EVENT_CAUSES) as EventCause[];
+/** Causes seen by the worklet adapters and the page, not by the engine. */
+export const HOST_EVENT_CAUSES = {
+  /** The processor's input has no channels (disconnected) or came back. values: channels. */
+  'input-missing': ['channels'],
+  'input-restored': ['channels'],
+  /** The microphone delivered fewer channels than the layout needs. values: expected, received. */
+  'channel-count': ['expected', 'received'],
+  /** The media devices changed (plugged, unplugged, default moved). */
+  'device-change': [],
+  /** Output underruns (overload) reported by the browser. values: events (new), durationMs (total). */
+  underrun: ['events', 'durationMs'],
+  /** The identification probe finished. values: samples recorded, peakDbfs of the probe. */
+  'probe-done': ['samples', 'peakDbfs'],
 
-export const EVENT_ACTIONS = ['none', 'silenced', 'clamped', 'adaptation-frozen', 'weights-reset', 'muted', 'resumed', 'reidentify-needed'] as const;
-export type EventAction = (typeof EVENT_ACTIONS)[number];
+} as const satisfies Record<string, readonly string[]>;
 
-export const EVENT_RECORD_LENGTH = 6;
+export type EventCause = EngineEventCause | keyof typeof HOST_EVENT_CAUSES;
+export type EventAction = EngineEventAction;
+export const EVENT_CAUSE_CODES: readonly EventCause[] = [...ENGINE_EVENT_CAUSES, ...(Object.keys(HOST_EVENT_CAUSES) as (keyof typeof HOST_EVENT_CAUSES)[])];
+export { EVENT_ACTIONS };
 
-export interface PanelEvent {
-  /** Audio time (s) for worklet events, context time for page events. */
-  timeS: number;
-  cause: EventCause;
-  action: EventAction;
-  values: Record<string, number>;
+/** Names of each cause's values, in slot order. */
+export function eventValueNames(cause: EventCause): readonly string[] {
+  return cause in HOST_EVENT_CAUSES ? HOST_EVENT_CAUSES[cause as keyof typeof HOST_EVENT_CAUSES] : EVENT_VALUE_NAMES[cause as EngineEventCause];
 }
+
+/** Plain-language text for each cause (the panel's event list). */
+export const EVENT_TEXT: Record<EventCause, string> = {
+  'non-finite': 'NaN or infinite samples (replaced by silence)',
+  'weights-unbounded': 'control-filter weights growing without bound',
+  'error-rise': 'error level rose above the control-off level',
+  'output-at-ceiling': 'output held at the cap',
+  'input-clipping': 'microphone input clipping',
+  'dead-microphone': 'microphone silent or stuck',
+  'limiter-engaged': 'limiter reducing gain',
+  'latency-jump': 'audio latency changed',
+  'model-mismatch': 'secondary-path model no longer fits',
+  resume: 'control resumed',
+  'input-missing': 'input disconnected or empty (read as silence)',
+  'input-restored': 'input connected again',
+  'channel-count': 'microphone delivered fewer channels than needed',
+  'device-change': 'audio devices changed',
+  underrun: 'audio output underran (overload)',
+  'probe-done': 'identification probe finished',
+};
+
+export const EVENT_RECORD_LENGTH = 3 + VALUES_PER_EVENT;
+
+export type PanelEvent = Omit<EngineEvent, 'cause'> & { cause: EventCause };
 
 export function causeCode(cause: EventCause): number {
   return EVENT_CAUSE_CODES.indexOf(cause);
@@ -130,13 +183,13 @@ export function actionCode(action: EventAction): number {
   return EVENT_ACTIONS.indexOf(action);
 }
 
-/** Numeric record → event (unknown codes become 'guard' / 'none' rather than throwing). */
+/** Numeric record → event (an unknown code reads as 'model-mismatch'/'none' rather than throwing). */
 export function decodeEvent(record: ArrayLike<number>): PanelEvent {
-  const cause = EVENT_CAUSE_CODES[record[1]!] ?? 'guard';
+  const cause = EVENT_CAUSE_CODES[record[1]!] ?? 'model-mismatch';
   const action = EVENT_ACTIONS[record[2]!] ?? 'none';
-  const names: readonly string[] = EVENT_CAUSES[cause].values;
+  const names = eventValueNames(cause);
   const values: Record<string, number> = {};
-  for (let i = 0; i < names.length && i < 3; i++) values[names[i]!] = record[3 + i]!;
+  for (let i = 0; i < names.length && i < VALUES_PER_EVENT; i++) values[names[i]!] = record[3 + i]!;
   return { timeS: record[0]!, cause, action, values };
 }
 
@@ -144,8 +197,8 @@ export function encodeEvent(e: PanelEvent, out: Float64Array = new Float64Array(
   out[0] = e.timeS;
   out[1] = causeCode(e.cause);
   out[2] = actionCode(e.action);
-  const names: readonly string[] = EVENT_CAUSES[e.cause].values;
-  for (let i = 0; i < 3; i++) out[3 + i] = i < names.length ? (e.values[names[i]!] ?? NaN) : NaN;
+  const names = eventValueNames(e.cause);
+  for (let i = 0; i < VALUES_PER_EVENT; i++) out[3 + i] = i < names.length ? (e.values[names[i]!] ?? NaN) : NaN;
   return out;
 }
 
@@ -294,6 +347,12 @@ export class TelemetryReader {
 // Processor options (constructor arguments, validated in the worklet) and control messages.
 // ---------------------------------------------------------------------------------------------
 
+/** What the worklet adapters need of a MessagePort (the worklet scope's and the page's both fit). */
+export interface PortLike {
+  postMessage(message: unknown, transfer?: ArrayBuffer[]): void;
+  close(): void;
+}
+
 /** How the live processor's input channels map to microphones. */
 export type InputLayout = 'ref-err' | 'err-only';
 
@@ -351,6 +410,9 @@ export type ControlMessage =
   | { type: 'identify'; probe: ProbeSpec }
   | { type: 'cancel-identify' }
   | { type: 'set-monitor'; gainDb: number; source: 'on' | 'off' }
+  | { type: 'set-harmonics'; harmonics: number }
+  | { type: 'set-frequency-source'; source: 'reference' | 'error' | 'fixed'; hz?: number }
+  | { type: 'acknowledge' }
   | { type: 'request-weights' }
   | { type: 'attach-analysis'; port: unknown }
   | { type: 'shutdown' };
@@ -425,8 +487,21 @@ export function parseControlMessage(data: unknown, sampleRate: number): ControlM
     case 'reset-weights':
     case 'cancel-identify':
     case 'request-weights':
+    case 'acknowledge':
     case 'shutdown':
       return { type: m.type };
+    case 'set-harmonics': {
+      const h = num(m, 'harmonics', 1, MAX_PANEL_HARMONICS);
+      if (!Number.isInteger(h)) throw new RangeError(`harmonics must be a whole number from 1 to ${MAX_PANEL_HARMONICS}, got ${h}`);
+      return { type: 'set-harmonics', harmonics: h };
+    }
+    case 'set-frequency-source': {
+      if (m.source !== 'reference' && m.source !== 'error' && m.source !== 'fixed') {
+        throw new RangeError(`source must be "reference", "error" or "fixed", got ${String(m.source)}`);
+      }
+      if (m.source === 'fixed') return { type: 'set-frequency-source', source: 'fixed', hz: num(m, 'hz', 1, sampleRate / 4) };
+      return { type: 'set-frequency-source', source: m.source };
+    }
     case 'configure': {
       if (!(m.secondaryPathModel instanceof Float32Array) || m.secondaryPathModel.length < 1) {
         throw new RangeError('secondaryPathModel must be a non-empty Float32Array');

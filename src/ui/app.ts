@@ -6,6 +6,7 @@
  * Opens in simulated-plant mode on the first scenario given (the page passes the demo scenarios);
  * the switch at the top moves to live microphones, behind the hearing-safety cautions.
  */
+import '../web/zod-jitless.ts';
 import { LitElement, css, html } from 'lit';
 import { shared, applyTheme, initialTheme, type ThemeName } from './theme.ts';
 import { FrameLoop } from './frame-loop.ts';
@@ -18,10 +19,13 @@ import { AncbCautions } from './cautions.ts';
 import './controls.ts';
 import './sim-source.ts';
 import './live-setup.ts';
+import type { AncbTones } from './tones.ts';
+import './tones.ts';
 import type { ScenarioEntry } from './sim-source.ts';
 import type { AncbLiveSetup } from './live-setup.ts';
 import { Session, defaultProbe, type ControlSettings, type ModelInfo } from '../web/session.ts';
 import { analysis } from '../web/analysis-client.ts';
+import { engineControllerConfig } from '../plant/simulate.ts';
 import { listDevices, loadChoice, reconcileChoice, requestMicrophonePermission, saveChoice, type DeviceChoice, type DeviceLists } from '../web/devices.ts';
 import { causalityVerdict, type CausalityVerdict, type GeometryResult, type IdentificationResult } from '../analysis/live-analysis.ts';
 import type { PanelEvent } from '../engine/messages.ts';
@@ -90,7 +94,9 @@ export class AncbApp extends LitElement {
     geometry: { state: true },
     verdict: { state: true },
     modelSource: { state: true },
+    measured: { state: true },
     toneSummary: { state: true },
+    guardState: { state: true },
   };
 
   static override styles = [
@@ -270,10 +276,13 @@ export class AncbApp extends LitElement {
   declare devices: DeviceLists | null;
   declare choice: DeviceChoice;
   declare identified: IdentificationResult | null;
+  /** The last identification, loaded or not. */
+  declare measured: IdentificationResult | null;
   declare geometry: GeometryResult | null;
   declare verdict: CausalityVerdict | null;
   declare modelSource: ModelInfo['source'];
   declare toneSummary: string;
+  declare guardState: number;
 
   readonly display = new DisplayState();
   readonly session: Session;
@@ -301,10 +310,12 @@ export class AncbApp extends LitElement {
     this.devices = null;
     this.choice = loadChoice();
     this.identified = null;
+    this.measured = null;
     this.geometry = null;
     this.verdict = null;
     this.modelSource = 'none';
     this.toneSummary = '';
+    this.guardState = 0;
     applyTheme(this.theme);
     this.session = new Session({
       frame: (f) => this.display.push(f),
@@ -328,9 +339,8 @@ export class AncbApp extends LitElement {
   }
 
   private settingsFromScenario(e: ScenarioEntry): ControlSettings {
-    const c = e.scenario.controller;
     return {
-      controller: { algorithm: c.algorithm, taps: c.taps, stepSize: c.stepSize, ...(c.leakage !== undefined ? { leakage: c.leakage } : {}) },
+      controller: engineControllerConfig(e.scenario),
       ceilingDbfs: e.scenario.outputCeilingDbfs ?? DEFAULT_SETTINGS.ceilingDbfs,
       adaptation: true,
     };
@@ -358,6 +368,9 @@ export class AncbApp extends LitElement {
       m('gr')?.show(d.grDb, NaN, NaN, nowMs);
       this.setReadout('att-now', d.attNowDb);
       this.setReadout('att-avg', d.attAvgDb);
+      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtDb(d.maxTruePeakDb)} dBTP · cap ${fmtDb(d.ceilingDb)} dBFS sample peak${d.frozenByLimiter === 1 ? ' · adaptation paused while the limiter works' : ''}`);
+      this.$<AncbTones>('ancb-tones')?.show(d, nowMs);
+      if (d.guardState !== this.guardState) this.guardState = d.guardState;
       const setup = this.$<AncbLiveSetup>('ancb-live-setup');
       if (setup && this.busy === 'identify') setup.progress = d.probeProgress;
     }
@@ -386,6 +399,11 @@ export class AncbApp extends LitElement {
           this.spectrumPending = false;
         });
     }
+  }
+
+  private setText(sel: string, text: string): void {
+    const el = this.$<HTMLElement>(sel);
+    if (el && el.textContent !== text) el.textContent = text;
   }
 
   private setReadout(id: string, v: number): void {
@@ -437,6 +455,8 @@ export class AncbApp extends LitElement {
       } else {
         this.display.reset('live');
         await this.session.startLive(this.choice, this.settings);
+        // access was granted by opening the microphones: list the devices for the pickers
+        if (!this.devices) void this.refreshDevices();
         this.status = `Microphones open at ${this.session.sampleRate / 1000} kHz. ${this.identified && this.identified.sampleRate === this.session.sampleRate ? 'Model loaded.' : 'Next: identify the secondary path.'}`;
       }
       this.running = true;
@@ -544,15 +564,26 @@ export class AncbApp extends LitElement {
     try {
       const probe = { ...defaultProbe(this.session.sampleRate), amplitude: Math.pow(10, probeDbfs / 20) };
       const r = await this.session.identify(probe, firTaps);
-      this.identified = r;
-      this.stale = '';
-      this.verdict = this.geometry?.primaryDelayMs != null ? causalityVerdict(this.geometry.primaryDelayMs, r.delayMs) : null;
-      this.status = `Identified: round trip ${r.delayMs.toFixed(2)} ms. ${r.warnings.length ? 'See the notes under the result.' : 'Press Control to start.'}`;
+      this.measured = r;
+      if (r.usable) {
+        await this.acceptModel(r);
+      } else {
+        this.status = 'Identification too poor to control with: the model was not loaded. See the notes; identify again, or load it anyway.';
+      }
     } catch (e) {
       this.status = `Identification failed: ${(e as Error).message}`;
     } finally {
       this.busy = '';
     }
+  }
+
+  private async acceptModel(r: IdentificationResult): Promise<void> {
+    await this.session.loadModel(r);
+    this.identified = r;
+    this.controlOn = false;
+    this.stale = '';
+    this.verdict = this.geometry?.primaryDelayMs != null ? causalityVerdict(this.geometry.primaryDelayMs, r.delayMs) : null;
+    this.status = `Model loaded: round trip ${r.delayMs.toFixed(2)} ms. ${r.warnings.length ? 'See the notes under the result. ' : ''}Press Control to start.`;
   }
 
   private async onGeometry(): Promise<void> {
@@ -601,7 +632,8 @@ export class AncbApp extends LitElement {
       .choice=${this.choice}
       .open=${this.running}
       .busy=${this.busy === 'identify' || this.busy === 'geometry' || this.busy === 'permission' ? this.busy : ''}
-      .result=${this.identified}
+      .result=${this.measured}
+      .loaded=${this.measured !== null && this.measured === this.identified}
       .geometry=${this.geometry}
       .verdict=${this.verdict}
       .reportedLatencyMs=${reported}
@@ -609,6 +641,9 @@ export class AncbApp extends LitElement {
       @ancb-choice=${(e: CustomEvent<DeviceChoice>) => this.onChoice(e.detail)}
       @ancb-identify=${(e: CustomEvent<{ probeDbfs: number; firTaps: number }>) => void this.onIdentify(e.detail.probeDbfs, e.detail.firTaps)}
       @ancb-geometry=${() => void this.onGeometry()}
+      @ancb-accept-model=${() => {
+        if (this.measured) void this.acceptModel(this.measured).catch((e: Error) => (this.status = `Could not load the model: ${e.message}`));
+      }}
     ></ancb-live-setup>`;
   }
 
@@ -636,6 +671,10 @@ export class AncbApp extends LitElement {
         <span class="status" role="status" aria-live="polite">${this.status}${controlHint && this.running ? html` <span class="muted">(control: ${controlHint})</span>` : ''}</span>
       </div>
       ${this.warnings.length ? html`<div class="card banner" role="alert"><ul class="warnings">${this.warnings.map((w) => html`<li class="warn">${w}</li>`)}</ul><button id="dismiss" @click=${() => (this.warnings = [])}>Dismiss</button></div>` : ''}
+      ${this.guardState > 0
+        ? html`<div class="card banner" role="alert"><span class="warn"><b>Guard:</b> ${this.guardState === 2 ? 'output muted' : 'adaptation frozen'} (see the events for the cause).</span>
+            <button id="resume" class="primary" @click=${() => this.session.post({ type: 'acknowledge' })}>Resume</button></div>`
+        : ''}
       ${this.stale
         ? html`<div class="card banner" role="alert"><span class="warn"><b>Adaptation frozen:</b> ${this.stale}. The secondary-path model may no longer match: identify again.</span>
             ${live ? html`<button class="primary" @click=${() => void this.onIdentify(-30, this.identified ? Math.max(16, this.identified.model.length - this.identified.delaySamples) : 256)}>Identify again</button>` : ''}</div>`
@@ -657,6 +696,7 @@ export class AncbApp extends LitElement {
               <ancb-meter channel="err" label="Error mic"></ancb-meter>
               <ancb-meter channel="out" label="Output" note="RMS bar, peak marker (1 s hold), red: cap"></ancb-meter>
               <ancb-meter channel="gr" label="Limiter" unit="dB GR" min="0" max="24" note="gain reduction; the cap limits sample peaks, a true peak can read up to about 6 dB higher"></ancb-meter>
+              <p class="small muted" id="true-peak"></p>
             </div>
           </div>
           <div class="plots">
@@ -670,6 +710,7 @@ export class AncbApp extends LitElement {
             <ancb-plot id="plot-tone" heading="Tracked tone frequency" .config=${TONE}
               placeholder=${this.toneSummary ? '' : 'The tone follower is not running. Its tracked frequency appears here when the tonal controller runs.'}
               summary=${this.toneSummary}></ancb-plot>
+            <ancb-tones></ancb-tones>
           </div>
           <ancb-events></ancb-events>
         </section>

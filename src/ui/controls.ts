@@ -10,9 +10,17 @@
 import { LitElement, css, html } from 'lit';
 import { shared, formLayout } from './theme.ts';
 import type { ControlSettings } from '../web/session.ts';
+import type { ControllerConfig, TonalSettings } from '../engine/controller-factory.ts';
+import type { FxlmsConfig } from '../dsp/fxlms.ts';
+
+export const HARMONICS_RANGE: [number, number] = [1, 8];
+export const TONE_HZ_RANGE: [number, number] = [20, 2000];
+const DEFAULT_FX: FxlmsConfig = { algorithm: 'fxnlms', taps: 64, stepSize: 0.002 };
+const DEFAULT_TONAL: TonalSettings = { algorithm: 'tonal', harmonics: 1, stepSize: 0.005, frequencySource: 'reference' };
 
 export const TAPS_RANGE: [number, number] = [1, 4096];
 export const STEP_RANGE: [number, number] = [1e-6, 2];
+export const TONAL_STEP_RANGE: [number, number] = [1e-6, 1.99];
 export const LEAK_RANGE: [number, number] = [0, 100];
 export const CAP_RANGE: [number, number] = [-40, 0];
 
@@ -66,7 +74,7 @@ export class AncbControls extends LitElement {
 
   constructor() {
     super();
-    this.settings = { controller: { algorithm: 'fxnlms', taps: 64, stepSize: 0.002 }, ceilingDbfs: -6, adaptation: true };
+    this.settings = { controller: DEFAULT_FX, ceilingDbfs: -6, adaptation: true };
     this.problem = '';
   }
 
@@ -86,44 +94,90 @@ export class AncbControls extends LitElement {
     return v;
   }
 
+  // the last settings of each controller family, so switching back and forth keeps them
+  private lastFx: FxlmsConfig = DEFAULT_FX;
+  private lastTonal: TonalSettings = DEFAULT_TONAL;
+
+  private setController(c: ControllerConfig): void {
+    if (c.algorithm === 'tonal') this.lastTonal = c;
+    else this.lastFx = c;
+    this.emit({ ...this.settings, controller: c });
+  }
+
   private setAlgorithm(e: Event): void {
-    const a = (e.target as HTMLSelectElement).value === 'fxlms' ? 'fxlms' : 'fxnlms';
-    this.emit({ ...this.settings, controller: { ...this.settings.controller, algorithm: a } });
+    const v = (e.target as HTMLSelectElement).value;
+    const c = this.settings.controller;
+    if (c.algorithm === 'tonal') this.lastTonal = c;
+    else this.lastFx = c;
+    this.setController(v === 'tonal' ? this.lastTonal : { ...this.lastFx, algorithm: v === 'fxlms' ? 'fxlms' : 'fxnlms' });
   }
 
   private setTaps(e: Event): void {
+    const c = this.settings.controller;
     const v = this.numberIn(e, 'Filter length', TAPS_RANGE, true);
-    if (v !== null) this.emit({ ...this.settings, controller: { ...this.settings.controller, taps: v } });
+    if (v !== null && c.algorithm !== 'tonal') this.setController({ ...c, taps: v });
+  }
+
+  private setHarmonics(e: Event): void {
+    const c = this.settings.controller;
+    const v = this.numberIn(e, 'Harmonics', HARMONICS_RANGE, true);
+    if (v !== null && c.algorithm === 'tonal') this.setController({ ...c, harmonics: v });
+  }
+
+  private setSource(source: 'reference' | 'error' | 'fixed', hz?: number): void {
+    const c = this.settings.controller;
+    if (c.algorithm !== 'tonal') return;
+    const { hz: _old, ...rest } = c;
+    const fixedHz = hz ?? c.hz ?? 100;
+    this.setController(source === 'fixed' ? { ...rest, frequencySource: 'fixed', hz: fixedHz } : { ...rest, frequencySource: source });
   }
 
   private setStep(v: number): void {
-    this.emit({ ...this.settings, controller: { ...this.settings.controller, stepSize: v } });
+    this.setController({ ...this.settings.controller, stepSize: v });
   }
 
   private setLeak(e: Event): void {
     const v = this.numberIn(e, 'Leakage', LEAK_RANGE);
-    if (v !== null) this.emit({ ...this.settings, controller: { ...this.settings.controller, leakage: v } });
+    if (v !== null) this.setController({ ...this.settings.controller, leakage: v });
   }
 
   private setCap(v: number): void {
     this.emit({ ...this.settings, ceilingDbfs: v });
   }
 
+  private renderTonal(c: TonalSettings): unknown {
+    const src = c.frequencySource === 'fixed' ? 'fixed' : c.frequencySource === 'error' ? 'error' : 'reference';
+    return html`<label for="harmonics">Harmonics</label>
+      <span class="pair"><input id="harmonics" type="number" min=${HARMONICS_RANGE[0]} max=${HARMONICS_RANGE[1]} step="1" .value=${String(c.harmonics)} @change=${this.setHarmonics} /><span class="unit">f₀ … ${c.harmonics}·f₀</span></span>
+      <label for="fsrc">Tone from</label>
+      <select id="fsrc" @change=${(e: Event) => this.setSource((e.target as HTMLSelectElement).value as 'reference' | 'error' | 'fixed')}>
+        <option value="reference" ?selected=${src === 'reference'}>reference mic (tracked)</option>
+        <option value="error" ?selected=${src === 'error'}>error mic (tracked, one-mic mode)</option>
+        <option value="fixed" ?selected=${src === 'fixed'}>fixed frequency</option>
+      </select>
+      ${src === 'fixed'
+        ? html`<label for="hz">Frequency</label>
+            <span class="pair"><input id="hz" type="number" min=${TONE_HZ_RANGE[0]} max=${TONE_HZ_RANGE[1]} step="any" .value=${String(c.hz ?? 100)}
+              @change=${(e: Event) => { const v = this.numberIn(e, 'Frequency', TONE_HZ_RANGE); if (v !== null) this.setSource('fixed', v); }} /><span class="unit">Hz</span></span>`
+        : ''}`;
+  }
+
   protected override render(): unknown {
     const c = this.settings.controller;
     const logMu = Math.log10(c.stepSize);
-    const normalised = c.algorithm === 'fxnlms';
+    const normalised = c.algorithm !== 'fxlms';
     return html`<section class="card" aria-labelledby="ctl-h">
       <h2 id="ctl-h">Controller</h2>
       <div class="grid">
         <label for="alg">Algorithm</label>
         <select id="alg" @change=${this.setAlgorithm} .value=${c.algorithm}>
-          <option value="fxnlms" ?selected=${c.algorithm === 'fxnlms'}>FxNLMS (normalised)</option>
-          <option value="fxlms" ?selected=${c.algorithm === 'fxlms'}>FxLMS</option>
+          <option value="fxnlms" ?selected=${c.algorithm === 'fxnlms'}>FxNLMS (broadband, normalised)</option>
+          <option value="fxlms" ?selected=${c.algorithm === 'fxlms'}>FxLMS (broadband)</option>
+          <option value="tonal" ?selected=${c.algorithm === 'tonal'}>Tone follower (narrowband)</option>
         </select>
 
-        <label for="taps">Filter length</label>
-        <span class="pair"><input id="taps" type="number" min=${TAPS_RANGE[0]} max=${TAPS_RANGE[1]} step="1" .value=${String(c.taps)} @change=${this.setTaps} /><span class="unit">taps</span></span>
+        ${c.algorithm === 'tonal' ? this.renderTonal(c) : html`<label for="taps">Filter length</label>
+        <span class="pair"><input id="taps" type="number" min=${TAPS_RANGE[0]} max=${TAPS_RANGE[1]} step="1" .value=${String(c.taps)} @change=${this.setTaps} /><span class="unit">taps</span></span>`}
 
         <label for="mu">Step size μ</label>
         <span class="pair">
@@ -131,9 +185,9 @@ export class AncbControls extends LitElement {
             aria-valuetext=${c.stepSize.toPrecision(3)}
             @input=${(e: Event) => this.setStep(Number(Math.pow(10, Number((e.target as HTMLInputElement).value)).toPrecision(3)))} />
           <input id="mu" type="number" min=${STEP_RANGE[0]} max=${STEP_RANGE[1]} step="any" .value=${String(c.stepSize)}
-            @change=${(e: Event) => { const v = this.numberIn(e, 'Step size', STEP_RANGE); if (v !== null) this.setStep(v); }} />
+            @change=${(e: Event) => { const v = this.numberIn(e, 'Step size', c.algorithm === 'tonal' ? TONAL_STEP_RANGE : STEP_RANGE); if (v !== null) this.setStep(v); }} />
         </span>
-        <span></span><span class="unit">${normalised ? 'normalised, stable for 0 < μ < 2 (less with a long secondary-path delay)' : 'in 1/(power × taps); keep well below 2/(L·P_f)'}</span>
+        <span></span><span class="unit">${c.algorithm === 'tonal' ? 'normalised per harmonic, 0 < μ < 2; error time constant ≈ 2/μ samples' : normalised ? 'normalised, stable for 0 < μ < 2 (less with a long secondary-path delay)' : 'in 1/(power × taps); keep well below 2/(L·P_f)'}</span>
 
         <label for="leak">Leakage γ</label>
         <span class="pair"><input id="leak" type="number" min="0" max=${LEAK_RANGE[1]} step="any" .value=${String(c.leakage ?? 0)} @change=${this.setLeak} /><span class="unit">w ← (1 − μγ)·w</span></span>

@@ -5,7 +5,7 @@
  * so a steady tone reads steady; attenuation uses the engine's own F/S-like averages live, and in
  * the simulated plant the control-off twin the simulator computes alongside.
  */
-import { M } from '../engine/messages.ts';
+import { M, MAX_PANEL_HARMONICS, harmonicIndex } from '../engine/messages.ts';
 import { powerToDbfs } from '../dsp/units.ts';
 
 export const FAST_S = 0.125;
@@ -31,6 +31,16 @@ export class DisplayState {
   toneHz = NaN;
   toneLocked = NaN;
   inputChannels = NaN;
+  guardState = 0;
+  frozenByLimiter = 0;
+  maxTruePeakDb = NaN;
+  /** Tone follower, per harmonic (index k − 1): frequency, before/after levels in dBFS (AES17), phase, attenuation. */
+  toneHarmonics = 0;
+  readonly hHz = new Float64Array(MAX_PANEL_HARMONICS);
+  readonly hBeforeDb = new Float64Array(MAX_PANEL_HARMONICS);
+  readonly hAfterDb = new Float64Array(MAX_PANEL_HARMONICS);
+  readonly hPhaseDeg = new Float64Array(MAX_PANEL_HARMONICS);
+  readonly hAttDb = new Float64Array(MAX_PANEL_HARMONICS);
   timeS = 0;
   frames = 0;
   readonly histT: number[] = [];
@@ -50,9 +60,14 @@ export class DisplayState {
   private lastT = NaN;
 
   reset(kind: 'sim' | 'live'): void {
-    Object.assign(this, new DisplayState());
+    const fresh = new DisplayState();
+    for (const key of Object.keys(fresh) as (keyof DisplayState)[]) {
+      const v = fresh[key];
+      if (typeof v === 'number' || typeof v === 'string') (this as Record<string, unknown>)[key] = v;
+    }
     this.kind = kind;
     for (const a of [this.histT, this.histNow, this.histAvg, this.toneT, this.toneF]) a.length = 0;
+    for (const a of [this.hHz, this.hBeforeDb, this.hAfterDb, this.hPhaseDeg, this.hAttDb]) a.fill(NaN);
   }
 
   push(f: Float64Array): void {
@@ -83,6 +98,19 @@ export class DisplayState {
     this.toneHz = f[M.toneHz]!;
     this.toneLocked = f[M.toneLocked]!;
     this.inputChannels = f[M.inputChannels]!;
+    this.guardState = f[M.guardState]!;
+    this.frozenByLimiter = f[M.frozenByLimiter]!;
+    this.maxTruePeakDb = 20 * Math.log10(f[M.maxTruePeak]!);
+    const th = f[M.toneHarmonics]!;
+    this.toneHarmonics = Number.isFinite(th) ? th : 0;
+    for (let k = 1; k <= MAX_PANEL_HARMONICS; k++) {
+      // a sine of peak amplitude A reads 20·log10(A) dBFS by AES17 (full-scale sine = 0 dBFS)
+      this.hHz[k - 1] = f[harmonicIndex(k, 0)]!;
+      this.hBeforeDb[k - 1] = 20 * Math.log10(f[harmonicIndex(k, 1)]!);
+      this.hAfterDb[k - 1] = 20 * Math.log10(f[harmonicIndex(k, 2)]!);
+      this.hPhaseDeg[k - 1] = f[harmonicIndex(k, 3)]!;
+      this.hAttDb[k - 1] = f[harmonicIndex(k, 4)]!;
+    }
     this.timeS = t;
     this.frames++;
 

@@ -4,7 +4,7 @@
  */
 import { LitElement, css, html } from 'lit';
 import { shared } from './theme.ts';
-import { EVENT_CAUSES, type PanelEvent } from '../engine/messages.ts';
+import { EVENT_TEXT, type PanelEvent } from '../engine/messages.ts';
 
 export const MAX_EVENTS = 200;
 
@@ -76,7 +76,7 @@ export class AncbEvents extends LitElement {
             ${this.events.map(
               (e) => html`<li data-cause=${e.cause}>
                 <span class="t">${e.timeS.toFixed(2)} s</span>
-                <span>${EVENT_CAUSES[e.cause].text}${valuesText(e) ? html` <span class="muted">(${valuesText(e)})</span>` : ''}</span>
+                <span>${EVENT_TEXT[e.cause]}${valuesText(e) ? html` <span class="muted">(${valuesText(e)})</span>` : ''}</span>
                 <span class="action">${e.action === 'none' ? '' : e.action.replace(/-/g, ' ')}</span>
               </li>`,
             )}

@@ -22,6 +22,7 @@ export class AncbLiveSetup extends LitElement {
     busy: {},
     progress: { type: Number },
     result: { attribute: false },
+    loaded: { type: Boolean },
     geometry: { attribute: false },
     verdict: { attribute: false },
     reportedLatencyMs: { type: Number },
@@ -80,6 +81,8 @@ export class AncbLiveSetup extends LitElement {
   declare busy: '' | 'permission' | 'identify' | 'geometry' | 'open';
   declare progress: number;
   declare result: IdentificationResult | null;
+  /** Whether `result` is the model the engine uses. */
+  declare loaded: boolean;
   declare geometry: GeometryResult | null;
   declare verdict: CausalityVerdict | null;
   declare reportedLatencyMs: number;
@@ -94,6 +97,7 @@ export class AncbLiveSetup extends LitElement {
     this.busy = '';
     this.progress = NaN;
     this.result = null;
+    this.loaded = false;
     this.geometry = null;
     this.verdict = null;
     this.reportedLatencyMs = NaN;
@@ -180,7 +184,11 @@ export class AncbLiveSetup extends LitElement {
               <dt>Loudspeaker → ref mic</dt><dd>${fmtDb(r.feedbackRatioDb)} dB re error mic</dd>
               <dt>Model</dt><dd>${r.model.length} taps</dd>
             </dl>
-            ${r.warnings.length ? html`<ul class="warn">${r.warnings.map((w) => html`<li class="warn">${w}</li>`)}</ul>` : ''}`
+            ${r.warnings.length ? html`<ul class="warn">${r.warnings.map((w) => html`<li class="warn">${w}</li>`)}</ul>` : ''}
+            ${this.loaded
+              ? html`<p class="small muted">This model is loaded.</p>`
+              : html`<p class="warn">Not loaded: the measurement is too poor to control with safely.</p>
+                  <button id="accept-model" @click=${() => this.fire('ancb-accept-model')}>Load it anyway</button>`}`
         : ''}`;
   }
 

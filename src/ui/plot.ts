@@ -11,6 +11,8 @@ import uPlot from 'uplot';
 import uplotCss from 'uplot/dist/uPlot.min.css?inline';
 import { shared, themeColor } from './theme.ts';
 
+const LOG_TICKS = [10, 20, 50, 100, 200, 500, 1000, 2000, 5000, 10000, 20000, 50000, 100000];
+
 /** Height of the plotting area, px. */
 export const PLOT_HEIGHT_PX = 240;
 
@@ -165,6 +167,12 @@ export class AncbPlot extends LitElement {
     const font = `14px ${themeColor('--ancb-font')}`;
     const axis = (label: string): uPlot.Axis => ({ label, stroke: fg, grid: { stroke: grid, width: 1 }, ticks: { stroke: grid, width: 1 }, font, labelFont: font, labelSize: 22 });
     const dec = cfg.decimals ?? 1;
+    // log-frequency axis: ticks at 1-2-5 steps, labelled 100, 1k, 10k
+    const logTicks = (_u: uPlot, _i: number, min: number, max: number): number[] => LOG_TICKS.filter((v) => v >= min * 0.999 && v <= max * 1.001);
+    const logLabels = (_u: uPlot, splits: number[]): string[] => splits.map((v) => (v == null ? '' : v >= 1000 ? `${v / 1000}k` : String(v)));
+    // keep every 1-2-5 tick (uPlot's log filter would keep only the decades)
+    const keepAll = (_u: uPlot, splits: number[]): number[] => splits;
+    const xAxis: uPlot.Axis = cfg.xLog ? { ...axis(cfg.xLabel), splits: logTicks, values: logLabels, filter: keepAll } : axis(cfg.xLabel);
     const opts: uPlot.Options = {
       ...this.size(),
       legend: { show: true, live: true },
@@ -174,7 +182,7 @@ export class AncbPlot extends LitElement {
         x: { time: false, ...(cfg.xLog ? { distr: 3, log: 10 } : {}), range: cfg.xRange ?? ((_u: uPlot, min: number, max: number): uPlot.Range.MinMax => [min, max]) },
         y: cfg.yRange ? { range: cfg.yRange } : { auto: true },
       },
-      axes: [axis(cfg.xLabel), { ...axis(cfg.yLabel), size: 60 }],
+      axes: [xAxis, { ...axis(cfg.yLabel), size: 60 }],
       series: [
         { label: cfg.xLabel, value: (_u, v) => (v == null ? '—' : v.toFixed(cfg.xLog ? 0 : 1)) },
         ...cfg.series.map((s) => ({

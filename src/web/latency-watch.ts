@@ -6,7 +6,10 @@
  *  - a change of the context's reported baseLatency/outputLatency by more than one quantum;
  *  - the error level rising more than `riseDb` above the control-off level for `riseS` seconds;
  *  - output underruns (overload) from playbackStats, reported but not acted on.
- * On the first three the session freezes adaptation and asks the user to re-identify.
+ * On the first three the session freezes adaptation and asks the user to re-identify. Events use the
+ * engine's causes and actions (src/engine/events.ts) where one fits: latency-jump, error-rise,
+ * freeze-adaptation. When the engine's guard runs, it watches the error rise too (on the audio
+ * thread); this page-side check is the one that also asks for a new identification.
  */
 import type { IAudioContext } from 'standardized-audio-context';
 import { contextStats } from './native-context.ts';
@@ -30,7 +33,7 @@ export class LatencyWatch {
   private readonly riseDb: number;
   private readonly riseS: number;
   private readonly quantum: number;
-  private readonly onDeviceChange = (): void => this.report({ timeS: this.ctx.currentTime, cause: 'device-change', action: 'reidentify-needed', values: {} }, true);
+  private readonly onDeviceChange = (): void => this.report({ timeS: this.ctx.currentTime, cause: 'device-change', action: 'freeze-adaptation', values: {} }, true);
 
   constructor(
     private readonly ctx: IAudioContext,
@@ -62,7 +65,7 @@ export class LatencyWatch {
     const lat = (Number.isFinite(s.baseLatencyS) ? s.baseLatencyS : 0) + (Number.isFinite(s.outputLatencyS) ? s.outputLatencyS : 0);
     const q = this.quantum / this.ctx.sampleRate;
     if (Math.abs(lat - this.lastLatencyS) > q) {
-      this.report({ timeS: this.ctx.currentTime, cause: 'latency-change', action: 'reidentify-needed', values: { beforeMs: this.lastLatencyS * 1000, afterMs: lat * 1000 } }, true);
+      this.report({ timeS: this.ctx.currentTime, cause: 'latency-jump', action: 'freeze-adaptation', values: { previousMs: this.lastLatencyS * 1000, currentMs: lat * 1000 } }, true);
       this.lastLatencyS = lat;
     }
     if (Number.isFinite(s.underrunEvents) && s.underrunEvents > this.lastUnderruns) {
@@ -85,7 +88,7 @@ export class LatencyWatch {
     if (riseDb > this.riseDb) {
       if (Number.isNaN(this.riseSince)) this.riseSince = t;
       else if (t - this.riseSince >= this.riseS) {
-        this.report({ timeS: t, cause: 'error-rise', action: 'adaptation-frozen', values: { riseDb, forS: t - this.riseSince } }, true);
+        this.report({ timeS: t, cause: 'error-rise', action: 'freeze-adaptation', values: { riseDb, thresholdDb: this.riseDb, heldMs: (t - this.riseSince) * 1000, baselinePower: base } }, true);
         this.riseSince = NaN;
       }
     } else this.riseSince = NaN;

@@ -8,8 +8,8 @@
  * Everything that starts or stops sound is ramped: the engine ramps its output, and a master gain
  * after the worklet ramps the whole output (the simulated plant's listening signal too).
  */
+import './zod-jitless.ts';
 import type { IAudioContext, IAudioWorkletNode, GainNode } from 'standardized-audio-context';
-import { z } from 'zod';
 import { parseScenario, type Scenario } from '../plant/scenario.ts';
 import { trueSecondaryPath } from '../plant/simulate.ts';
 import type { ControllerConfig } from '../engine/controller-factory.ts';
@@ -20,9 +20,6 @@ import { analysis, connectAudioToAnalysis } from './analysis-client.ts';
 import { closeInputs, openInputs, type DeviceChoice, type OpenedInputs } from './devices.ts';
 import { LatencyWatch } from './latency-watch.ts';
 import { canChooseOutput, contextStats, setOutputDevice } from './native-context.ts';
-
-// zod compiles validators with `new Function` unless told not to; the page's policy forbids eval
-z.config({ jitless: true });
 
 /** Fade of the master gain at start and stop, s. */
 export const MASTER_RAMP_S = 0.05;
@@ -55,24 +52,45 @@ export interface SessionHandlers {
   warning(text: string): void;
 }
 
+/** The scenario's controller with the panel's settings in place (its model-imperfection fields kept). */
+export function scenarioController(sc: Scenario, c: ControllerConfig): Scenario['controller'] {
+  const o = sc.controller;
+  // modelFile is left out: the page cannot read files; the model comes from the true path
+  const keep = {
+    ...(o.modelTaps !== undefined ? { modelTaps: o.modelTaps } : {}),
+    ...(o.modelPhaseErrorDeg !== undefined ? { modelPhaseErrorDeg: o.modelPhaseErrorDeg } : {}),
+    ...(o.modelGainErrorDb !== undefined ? { modelGainErrorDb: o.modelGainErrorDb } : {}),
+  };
+  const leak = c.leakage !== undefined ? { leakage: c.leakage } : {};
+  if (c.algorithm === 'tonal') {
+    const source = c.frequencySource === 'external' ? 'reference' : c.frequencySource;
+    return {
+      algorithm: 'tonal',
+      harmonics: c.harmonics,
+      stepSize: c.stepSize,
+      frequencySource: source,
+      ...(c.hz !== undefined ? { hz: c.hz } : {}),
+      ...(c.minHz !== undefined ? { minHz: c.minHz } : {}),
+      ...(c.maxHz !== undefined ? { maxHz: c.maxHz } : {}),
+      ...leak,
+      ...keep,
+    };
+  }
+  return { algorithm: c.algorithm, taps: c.taps, stepSize: c.stepSize, ...leak, ...keep };
+}
+
 /** A scenario copy for a context: same rate; the block stays the scenario's unless a quantum exceeds it. */
 export function scenarioForContext(sc: Scenario, quantum: number, settings: ControlSettings): Scenario {
   let block = sc.blockSize;
   while (block < quantum && block < 4096) block *= 2;
-  const c = settings.controller;
-  const copy = {
-    ...sc,
-    blockSize: block,
-    outputCeilingDbfs: settings.ceilingDbfs,
-    controller: {
-      ...sc.controller,
-      algorithm: c.algorithm,
-      taps: c.taps,
-      stepSize: c.stepSize,
-      ...(c.leakage !== undefined ? { leakage: c.leakage } : {}),
-    },
-  };
-  return parseScenario(copy);
+  return parseScenario({ ...sc, blockSize: block, outputCeilingDbfs: settings.ceilingDbfs, controller: scenarioController(sc, settings.controller) });
+}
+
+/** Whether going from one controller setting to another needs a new engine (weights start again). */
+export function needsRebuild(a: ControllerConfig, b: ControllerConfig): boolean {
+  if (a.algorithm !== b.algorithm) return true;
+  if (a.algorithm !== 'tonal' && b.algorithm !== 'tonal') return a.taps !== b.taps;
+  return false;
 }
 
 /** Scenarios whose sources drift or come from files cannot run forever: they stop at durationS. */
@@ -252,15 +270,22 @@ export class Session {
   }
 
   /**
-   * Identify the secondary path (live only): play the probe, deconvolve in the analysis worker,
-   * load the model into the engine. Control is off afterwards.
+   * Identify the secondary path (live only): play the probe and deconvolve in the analysis worker.
+   * The result is not loaded: call `loadModel` (the panel does at once for a usable result, and only
+   * on the user's say-so otherwise). Control is off afterwards.
    */
   async identify(probe: ProbeSpec, firTaps: number): Promise<IdentificationResult> {
     if (this.kind !== 'live' || !this.node || !this.settings) throw new Error('identification needs live microphones: switch to live mode first');
     const got = this.message('identify-recording', (probe.durationS + probe.tailS) * 1000 + 10000);
     this.post({ type: 'identify', probe });
     const rec = (await got) as Extract<WorkletMessage, { type: 'identify-recording' }>;
-    const result = await analysis().identify(rec, { firTaps });
+    return analysis().identify(rec, { firTaps });
+  }
+
+  /** Load an identified model into the engine (a new engine: weights start from zero, control off). */
+  async loadModel(result: IdentificationResult): Promise<void> {
+    if (this.kind !== 'live' || !this.node || !this.settings) throw new Error('no live session to load the model into');
+    if (result.sampleRate !== this.sampleRate) throw new Error(`the model was measured at ${result.sampleRate} Hz, the audio now runs at ${this.sampleRate} Hz: identify again`);
     const configured = this.message('configured', 5000);
     this.post({ type: 'configure', controller: this.settings.controller, secondaryPathModel: result.model, startMode: 'idle' });
     await configured;
@@ -268,7 +293,6 @@ export class Session {
     this.identified = result;
     this.stale = false;
     this.handlers.model({ taps: result.model, truePath: null, sampleRate: result.sampleRate, source: 'identified' });
-    return result;
   }
 
   setControl(on: boolean): void {
@@ -298,7 +322,8 @@ export class Session {
     this.settings = { ...next, controller: { ...next.controller } };
     if (!this.node || !prev) return 'in-place';
     const c = next.controller;
-    if (c.algorithm !== prev.controller.algorithm || c.taps !== prev.controller.taps) {
+    const p = prev.controller;
+    if (needsRebuild(p, c)) {
       if (this.kind === 'sim' && this.scenario) {
         await this.startSim(this.scenario, this.settings, monitorGainDb);
       } else {
@@ -309,6 +334,13 @@ export class Session {
         if (!next.adaptation || this.stale) this.post({ type: 'set-adaptation', on: false });
       }
       return 'rebuilt';
+    }
+    if (c.algorithm === 'tonal' && p.algorithm === 'tonal') {
+      if (c.harmonics !== p.harmonics) this.post({ type: 'set-harmonics', harmonics: c.harmonics });
+      if (c.frequencySource !== p.frequencySource || c.hz !== p.hz) {
+        const source = c.frequencySource === 'external' ? 'reference' : c.frequencySource;
+        this.post(source === 'fixed' ? { type: 'set-frequency-source', source, hz: c.hz } : { type: 'set-frequency-source', source });
+      }
     }
     if (c.stepSize !== prev.controller.stepSize) this.post({ type: 'set-step-size', value: c.stepSize });
     if ((c.leakage ?? 0) !== (prev.controller.leakage ?? 0)) this.post({ type: 'set-leakage', value: c.leakage ?? 0 });
