@@ -7,24 +7,22 @@
  *   npm run bench -- --runs 7          timed runs per row (the median is reported; default 5)
  *   npm run bench -- --only wasm,fd    some implementations only
  *   npm run bench -- --sizes 512x256   some sizes only (LxM, comma-separated)
+ *   npm run bench -- --worklet         also run the engine in a real-time AudioWorklet of headless
+ *                                      Chromium at (4096, 2048) (or --sizes) for --worklet-seconds
+ *                                      (default 60) per implementation: render-budget share, underruns
  *
  * A benchmark, not a test: nothing here passes or fails. Each run processes blocks until at least
  * `RUN_S` of wall time has passed; the median of the runs is reported with the spread, because the
  * machines are shared. The load average at each row is printed so a slow row can be read for what
  * it is. The stimulus is open loop (random reference and error blocks, adaptation on), so every
  * implementation does its whole per-block work; FxNLMS with a small step keeps the weights bounded.
+ * The divergence guard is off (an open-loop stimulus is no plant for it to judge).
  */
 import os from 'node:os';
-import { Engine } from '../src/engine/engine.ts';
-import type { ControllerConfig } from '../src/engine/controller-factory.ts';
-import { createFxlmsController, type FxlmsImplementation, type FxlmsImplementationSettings } from '../src/engine/implementation.ts';
-import type { FxlmsConfig } from '../src/dsp/fxlms.ts';
-import type { GradientConstraint } from '../src/dsp/fd-fxlms.ts';
 import { wasmSimdSupported } from '../src/dsp/wasm-module.ts';
-import { Random } from '../src/dsp/random.ts';
+import { BLOCK, SAMPLE_RATE, VARIANTS, buildBenchEngine, benchStimulus, variantByName, type EngineHost, type Variant } from './bench-engine.ts';
+import { runWorkletBench, type WorkletResult } from './worklet-run.ts';
 
-const SAMPLE_RATE = 48000;
-const BLOCK = 128;
 const RUN_S = 0.25;
 const SIZES: [number, number][] = [
   [64, 64],
@@ -33,24 +31,6 @@ const SIZES: [number, number][] = [
   [1024, 512],
   [4096, 2048],
   [8192, 4096],
-];
-
-/** What a bench row runs: an implementation and, for the frequency domain, its options. */
-interface Variant {
-  name: string;
-  implementation: FxlmsImplementation;
-  update: 'sample' | 'block';
-  constraint?: GradientConstraint;
-  wasmSimd: boolean;
-  note: string;
-}
-
-const VARIANTS: Variant[] = [
-  { name: 'js', implementation: 'js', update: 'sample', wasmSimd: false, note: 'TypeScript time domain (reference), per-sample update' },
-  { name: 'wasm', implementation: 'wasm', update: 'sample', wasmSimd: true, note: 'wasm SIMD time domain, per-sample update' },
-  { name: 'fd', implementation: 'fd', update: 'block', constraint: 'alternating', wasmSimd: true, note: 'partitioned FD, alternating constraint, wasm SIMD spectral loops' },
-  { name: 'fd-full', implementation: 'fd', update: 'block', constraint: 'full', wasmSimd: true, note: 'partitioned FD, full constraint, wasm SIMD spectral loops' },
-  { name: 'fd-js', implementation: 'fd', update: 'block', constraint: 'alternating', wasmSimd: false, note: 'partitioned FD, alternating constraint, TypeScript loops (no-SIMD fallback)' },
 ];
 
 export interface BenchRow {
@@ -79,18 +59,29 @@ export interface BenchRow {
   peakRssMiB: number;
   loadAverage1m: number;
   /** How the engine got the controller: through its factory, or handed in by the bench. */
-  host: 'engine-factory' | 'engine-with-bench-controller';
+  host: EngineHost;
   date: string;
   cpu: string;
   cores: number;
   node: string;
 }
 
-function parseArgs(argv: string[]): { json: boolean; runs: number; only: Set<string> | null; sizes: [number, number][] } {
+interface Args {
+  json: boolean;
+  runs: number;
+  only: Set<string> | null;
+  sizes: [number, number][] | null;
+  worklet: boolean;
+  workletSeconds: number;
+}
+
+function parseArgs(argv: string[]): Args {
   let json = false;
   let runs = 5;
   let only: Set<string> | null = null;
-  let sizes = SIZES;
+  let sizes: [number, number][] | null = null;
+  let worklet = false;
+  let workletSeconds = 60;
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i]!;
     if (a === '--json') json = true;
@@ -99,56 +90,26 @@ function parseArgs(argv: string[]): { json: boolean; runs: number; only: Set<str
       if (!Number.isInteger(runs) || runs < 1 || runs > 101) throw new RangeError(`--runs must be an integer from 1 to 101, got ${argv[i]}`);
     } else if (a === '--only') {
       only = new Set((argv[++i] ?? '').split(','));
-      for (const v of only) if (!VARIANTS.some((x) => x.name === v)) throw new RangeError(`--only: unknown implementation "${v}" (known: ${VARIANTS.map((x) => x.name).join(', ')})`);
+      for (const v of only) variantByName(v);
     } else if (a === '--sizes') {
       sizes = (argv[++i] ?? '').split(',').map((s) => {
         const m = /^(\d+)x(\d+)$/.exec(s);
         if (!m) throw new RangeError(`--sizes: expected LxM such as 512x256, got "${s}"`);
         return [Number(m[1]), Number(m[2])] as [number, number];
       });
-    } else throw new RangeError(`unknown option ${a} (known: --json, --runs N, --only LIST, --sizes LIST)`);
+    } else if (a === '--worklet') worklet = true;
+    else if (a === '--worklet-seconds') {
+      workletSeconds = Number(argv[++i]);
+      if (!(workletSeconds >= 3 && workletSeconds <= 3600)) throw new RangeError(`--worklet-seconds must be from 3 to 3600, got ${argv[i]}`);
+    } else throw new RangeError(`unknown option ${a} (known: --json, --runs N, --only LIST, --sizes LIST, --worklet, --worklet-seconds S)`);
   }
-  return { json, runs, only, sizes };
+  return { json, runs, only, sizes, worklet, workletSeconds };
 }
 
 function median(xs: number[]): number {
   const s = [...xs].sort((a, b) => a - b);
   const m = s.length >> 1;
   return s.length % 2 ? s[m]! : 0.5 * (s[m - 1]! + s[m]!);
-}
-
-/** A decaying, oscillating secondary-path model of M taps with a bulk delay of one block. */
-function benchModel(M: number): Float32Array {
-  const s = new Float32Array(M);
-  const delay = Math.min(BLOCK, M - 1);
-  for (let m = delay; m < M; m++) s[m] = 0.3 * Math.exp(-(m - delay) / (M / 6)) * Math.cos(0.05 * m);
-  return s;
-}
-
-/**
- * An engine running the variant. The engine builds its controller through its factory; when the
- * factory does not yet know `implementation`, the bench hands the engine its controller instead.
- */
-function buildEngine(v: Variant, L: number, M: number): { engine: Engine; host: BenchRow['host'] } {
-  const config: FxlmsConfig = { algorithm: 'fxnlms', taps: L, stepSize: 1e-3, regularization: 1e-3, update: v.update };
-  const model = benchModel(M);
-  // the fields buildFxlmsController (src/engine/implementation.ts) reads; a factory that does not
-  // know them yet ignores them
-  const settings: FxlmsImplementationSettings = { implementation: v.implementation, ...(v.constraint ? { fdConstraint: v.constraint } : {}) };
-  const withImpl = { ...config, ...settings } as ControllerConfig;
-  let engine: Engine;
-  try {
-    engine = new Engine({ sampleRate: SAMPLE_RATE, maxBlockSize: BLOCK, controller: withImpl, secondaryPathModel: model, startMode: 'control' });
-  } catch {
-    engine = new Engine({ sampleRate: SAMPLE_RATE, maxBlockSize: BLOCK, controller: config, secondaryPathModel: model, startMode: 'control' });
-  }
-  const built = engine.controller as { implementation?: string; constraint?: string; kernel?: string };
-  const matches = built.implementation === v.implementation && (v.constraint === undefined || built.constraint === v.constraint) && (v.implementation !== 'fd' || built.kernel === (v.wasmSimd ? 'wasm' : 'js'));
-  if (matches && v.name !== 'js') return { engine, host: 'engine-factory' };
-  if (v.name === 'js' && (built.implementation === undefined || built.implementation === 'js')) return { engine, host: 'engine-factory' };
-  const c = createFxlmsController(config, model, BLOCK, v.implementation, { wasmSimd: v.wasmSimd, ...(v.constraint ? { constraint: v.constraint } : {}) });
-  Object.defineProperty(engine, 'controller', { value: c });
-  return { engine, host: 'engine-with-bench-controller' };
 }
 
 function memoryNow(): number {
@@ -158,12 +119,10 @@ function memoryNow(): number {
 
 function benchRow(v: Variant, L: number, M: number, runs: number): BenchRow {
   const before = memoryNow();
-  const { engine, host } = buildEngine(v, L, M);
+  const { engine, host } = buildBenchEngine(v, L, M);
   const stateBytes = Math.max(0, memoryNow() - before);
-  const rng = new Random(L * 31 + M);
-  const stimulusBlocks = 32;
-  const refs = Array.from({ length: stimulusBlocks }, () => rng.fillGaussian(new Float32Array(BLOCK), 0.1) as Float32Array);
-  const errs = Array.from({ length: stimulusBlocks }, () => rng.fillGaussian(new Float32Array(BLOCK), 0.01) as Float32Array);
+  const { refs, errs } = benchStimulus(L * 31 + M);
+  const stimulusBlocks = refs.length;
   const out = new Float32Array(BLOCK);
   // warm-up: let the JIT compile the block path (and the wasm tier-up happen)
   const warmEnd = performance.now() + 150;
@@ -225,7 +184,18 @@ function round(x: number, digits: number): number {
   return Math.round(x * f) / f;
 }
 
-function main(): void {
+/** A worklet result as a row of the JSON output (realTimeFactor = 1 / render-budget share). */
+interface WorkletRow extends WorkletResult {
+  implementation: string;
+  realTimeFactor: number;
+  host: 'audioworklet';
+  engineHost: string;
+  date: string;
+  cpu: string;
+  cores: number;
+}
+
+async function main(): Promise<void> {
   const args = parseArgs(process.argv.slice(2));
   const simd = wasmSimdSupported();
   const variants = VARIANTS.filter((v) => (args.only ? args.only.has(v.name) : true) && (simd || !v.wasmSimd));
@@ -240,7 +210,7 @@ function main(): void {
   for (const v of variants) say(`  ${v.name.padEnd(8)} ${v.note}`);
   say('');
   say(`${'impl'.padEnd(8)} ${'L'.padStart(5)} ${'M'.padStart(5)} ${'RTF'.padStart(8)} ${'(min–max)'.padEnd(17)} ${'CPU RTF'.padStart(8)} ${'µs/block'.padStart(9)} ${'budget'.padStart(7)} ${'state MiB'.padStart(9)} ${'load'.padStart(5)}`);
-  for (const [L, M] of args.sizes) {
+  for (const [L, M] of args.sizes ?? SIZES) {
     for (const v of variants) {
       const row = benchRow(v, L, M, args.runs);
       rows.push(row);
@@ -253,7 +223,25 @@ function main(): void {
   say('');
   say(`peak resident memory: ${(process.resourceUsage().maxRSS / 1024).toFixed(1)} MiB; load average at end ${os.loadavg().map((x) => x.toFixed(2)).join(' ')}`);
   if (rows.some((r) => r.host === 'engine-with-bench-controller')) say('* the engine\'s controller factory does not build this implementation yet: the bench hands the engine its controller');
-  if (args.json) process.stdout.write(JSON.stringify(rows, null, 2) + '\n');
+  const all: (BenchRow | WorkletRow)[] = [...rows];
+  if (args.worklet) {
+    const wv = variants.filter((v) => (args.only ? true : ['js', 'wasm', 'fd'].includes(v.name)));
+    const sizes = args.sizes ?? [[4096, 2048]];
+    say('');
+    say(`AudioWorklet in headless Chromium, 48 kHz, ${args.workletSeconds} s per row (the first second is left out):`);
+    const results = await runWorkletBench(wv, sizes, args.workletSeconds, (t) => say(t));
+    say(`${'impl'.padEnd(8)} ${'L'.padStart(5)} ${'M'.padStart(5)} ${'budget'.padStart(8)} ${'µs/quantum'.padStart(11)} ${'quanta'.padStart(7)} ${'underruns'.padStart(10)}`);
+    for (const r of results) {
+      const v = variantByName(r.variant);
+      all.push({ ...r, implementation: v.implementation, realTimeFactor: round(1 / r.renderBudgetShare, 3), host: 'audioworklet', engineHost: r.host, date: new Date().toISOString(), cpu: os.cpus()[0]?.model ?? 'unknown', cores: os.availableParallelism() });
+      const under = r.underrunEvents === null ? 'n/a' : `${r.underrunEvents} (${(r.underrunDurationS ?? 0).toFixed(3)} s)`;
+      say(`${r.variant.padEnd(8)} ${String(r.taps).padStart(5)} ${String(r.modelTaps).padStart(5)} ${(100 * r.renderBudgetShare).toFixed(2).padStart(7)}% ${r.microsecondsPerQuantum.toFixed(1).padStart(11)} ${String(r.quanta).padStart(7)} ${under.padStart(10)}`);
+    }
+  }
+  if (args.json) process.stdout.write(JSON.stringify(all, null, 2) + '\n');
 }
 
-main();
+main().catch((e: unknown) => {
+  process.stderr.write(`${e instanceof Error ? e.message : String(e)}\n`);
+  process.exit(1);
+});
