@@ -52,6 +52,10 @@ export interface BenchRow {
   runs: number;
   /** Wall time per block, median, in microseconds, and its share of the block's real-time budget. */
   microsecondsPerBlock: number;
+  /** The controller's process() alone (same stimulus, runs interleaved with the engine's), median. */
+  controllerRealTimeFactor: number;
+  /** Median engine time per block minus the controller's: the output stage, meters and the rest. */
+  engineOverheadMicroseconds: number;
   budgetShare: number;
   /** Bytes the engine and controller allocated at construction (JS heap + ArrayBuffers, wasm memory included). */
   stateBytes: number;
@@ -117,6 +121,24 @@ function memoryNow(): number {
   return m.heapUsed + m.arrayBuffers;
 }
 
+/** Blocks until RUN_S of wall time has passed: real-time factors over wall and CPU time. */
+function timedRun(step: (k: number) => void, from: number): { rtf: number; cpuRtf: number; usPerBlock: number; next: number } {
+  let blocks = 0;
+  let k = from;
+  const cpu0 = process.cpuUsage();
+  const t0 = performance.now();
+  let t = t0;
+  while (t - t0 < RUN_S * 1000 || blocks < 8) {
+    for (let i = 0; i < 4; i++) step(k++);
+    blocks += 4;
+    t = performance.now();
+  }
+  const cpu = process.cpuUsage(cpu0);
+  const wallS = (t - t0) / 1000;
+  const audioS = (blocks * BLOCK) / SAMPLE_RATE;
+  return { rtf: audioS / wallS, cpuRtf: audioS / ((cpu.user + cpu.system) / 1e6), usPerBlock: (wallS * 1e6) / blocks, next: k };
+}
+
 function benchRow(v: Variant, L: number, M: number, runs: number): BenchRow {
   const before = memoryNow();
   const { engine, host } = buildBenchEngine(v, L, M);
@@ -131,27 +153,23 @@ function benchRow(v: Variant, L: number, M: number, runs: number): BenchRow {
     engine.process(refs[b % stimulusBlocks]!, errs[b % stimulusBlocks]!, out, BLOCK);
     b++;
   }
+  const ctrl = engine.controller;
+  const engineStep = (k: number): void => engine.process(refs[k % stimulusBlocks]!, errs[k % stimulusBlocks]!, out, BLOCK);
+  const controllerStep = (k: number): void => ctrl.process(refs[k % stimulusBlocks]!, errs[k % stimulusBlocks]!, out, BLOCK);
   const rtfs: number[] = [];
   const cpuRtfs: number[] = [];
   const usPerBlock: number[] = [];
+  const ctrlUsPerBlock: number[] = [];
+  // engine and controller-alone runs interleaved, so both see the same load
   for (let r = 0; r < runs; r++) {
-    let blocks = 0;
-    const cpu0 = process.cpuUsage();
-    const t0 = performance.now();
-    let t = t0;
-    while (t - t0 < RUN_S * 1000 || blocks < 8) {
-      for (let k = 0; k < 4; k++) {
-        engine.process(refs[b % stimulusBlocks]!, errs[b % stimulusBlocks]!, out, BLOCK);
-        b++;
-      }
-      blocks += 4;
-      t = performance.now();
-    }
-    const cpu = process.cpuUsage(cpu0);
-    const wallS = (t - t0) / 1000;
-    rtfs.push((blocks * BLOCK) / SAMPLE_RATE / wallS);
-    cpuRtfs.push((blocks * BLOCK) / SAMPLE_RATE / ((cpu.user + cpu.system) / 1e6));
-    usPerBlock.push((wallS * 1e6) / blocks);
+    const e = timedRun(engineStep, b);
+    b = e.next;
+    rtfs.push(e.rtf);
+    cpuRtfs.push(e.cpuRtf);
+    usPerBlock.push(e.usPerBlock);
+    const c = timedRun(controllerStep, b);
+    b = c.next;
+    ctrlUsPerBlock.push(c.usPerBlock);
   }
   const rtf = median(rtfs);
   return {
@@ -167,6 +185,8 @@ function benchRow(v: Variant, L: number, M: number, runs: number): BenchRow {
     cpuRealTimeFactor: round(median(cpuRtfs), 3),
     runs,
     microsecondsPerBlock: round(median(usPerBlock), 2),
+    controllerRealTimeFactor: round(BLOCK / SAMPLE_RATE / (median(ctrlUsPerBlock) / 1e6), 3),
+    engineOverheadMicroseconds: round(median(usPerBlock) - median(ctrlUsPerBlock), 2),
     budgetShare: round(1 / rtf, 4),
     stateBytes,
     peakRssMiB: round(process.resourceUsage().maxRSS / 1024, 1),
@@ -206,16 +226,17 @@ async function main(): Promise<void> {
   say(`ancbench engine benchmark — ${new Date().toISOString()}`);
   say(`machine: ${os.cpus()[0]?.model ?? 'unknown'}, ${os.availableParallelism()} cores, Node ${process.version}; wasm SIMD ${simd ? 'available' : 'NOT available (wasm rows skipped)'}`);
   say(`48 kHz, block ${BLOCK}, FxNLMS adapting, median of ${args.runs} runs of ≥ ${RUN_S} s; load average at start ${os.loadavg().map((x) => x.toFixed(2)).join(' ')}`);
-  say('RTF: audio seconds per wall second; CPU RTF: per second of this process\'s CPU time (what one unshared core would do)');
+  say('RTF: audio seconds per wall second; CPU RTF: per second of this process\'s CPU time (what one unshared core would do);');
+  say('ctrl RTF: the controller alone, without the engine\'s output stage and meters');
   for (const v of variants) say(`  ${v.name.padEnd(8)} ${v.note}`);
   say('');
-  say(`${'impl'.padEnd(8)} ${'L'.padStart(5)} ${'M'.padStart(5)} ${'RTF'.padStart(8)} ${'(min–max)'.padEnd(17)} ${'CPU RTF'.padStart(8)} ${'µs/block'.padStart(9)} ${'budget'.padStart(7)} ${'state MiB'.padStart(9)} ${'load'.padStart(5)}`);
+  say(`${'impl'.padEnd(8)} ${'L'.padStart(5)} ${'M'.padStart(5)} ${'RTF'.padStart(8)} ${'(min–max)'.padEnd(17)} ${'CPU RTF'.padStart(8)} ${'ctrl RTF'.padStart(9)} ${'µs/block'.padStart(9)} ${'budget'.padStart(7)} ${'state MiB'.padStart(9)} ${'load'.padStart(5)}`);
   for (const [L, M] of args.sizes ?? SIZES) {
     for (const v of variants) {
       const row = benchRow(v, L, M, args.runs);
       rows.push(row);
       say(
-        `${v.name.padEnd(8)} ${String(L).padStart(5)} ${String(M).padStart(5)} ${row.realTimeFactor.toFixed(1).padStart(7)}x ${`(${row.realTimeFactorMin.toFixed(1)}–${row.realTimeFactorMax.toFixed(1)})`.padEnd(17)} ${row.cpuRealTimeFactor.toFixed(1).padStart(7)}x ${row.microsecondsPerBlock.toFixed(1).padStart(9)} ${(100 * row.budgetShare).toFixed(1).padStart(6)}% ${(row.stateBytes / 1048576).toFixed(2).padStart(9)} ${row.loadAverage1m.toFixed(2).padStart(5)}` +
+        `${v.name.padEnd(8)} ${String(L).padStart(5)} ${String(M).padStart(5)} ${row.realTimeFactor.toFixed(1).padStart(7)}x ${`(${row.realTimeFactorMin.toFixed(1)}–${row.realTimeFactorMax.toFixed(1)})`.padEnd(17)} ${row.cpuRealTimeFactor.toFixed(1).padStart(7)}x ${row.controllerRealTimeFactor.toFixed(1).padStart(8)}x ${row.microsecondsPerBlock.toFixed(1).padStart(9)} ${(100 * row.budgetShare).toFixed(1).padStart(6)}% ${(row.stateBytes / 1048576).toFixed(2).padStart(9)} ${row.loadAverage1m.toFixed(2).padStart(5)}` +
           (row.host === 'engine-with-bench-controller' ? ' *' : ''),
       );
     }
