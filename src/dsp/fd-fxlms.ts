@@ -119,6 +119,8 @@ export class FdFxlmsController implements Controller {
   private readonly gbI: Float64Array;
   /** ‖w_j‖² per partition (float64; inside the kernel's memory with the wasm kernel). */
   private readonly partNorm: Float64Array;
+  /** The secondary-path model as given (time domain), for copySecondaryPathModel. */
+  private readonly modelTime: Float32Array;
   /** Full constraint: the time-domain weights (K_L·P) are the master copy. */
   private readonly wTime: Real;
   private readonly fRing: Real;
@@ -257,16 +259,32 @@ export class FdFxlmsController implements Controller {
     this.FSr = arrays.FSr;
     this.FSi = arrays.FSi;
 
-    // Model partition spectra Ŝ_i = FFT([ŝ_i, 0]), fixed for the controller's life.
+    this.modelTime = new Float32Array(this.modelTaps);
+    this.setSecondaryPathModel(secondaryPathModel);
+  }
+
+  /**
+   * Replace the secondary-path model in place (M taps at most; missing taps are zero): the model
+   * partition spectra Ŝ_i = FFT([ŝ_i, 0]) are recomputed (K_M FFTs). Not per block.
+   */
+  setSecondaryPathModel(taps: ArrayLike<number>): void {
+    const P = this.partitionSize;
+    const M = this.modelTaps;
+    const mt = this.modelTime;
+    for (let m = 0; m < M; m++) mt[m] = m < taps.length ? taps[m]! : 0;
     const t = this.tWin;
-    for (let i = 0; i < KM; i++) {
+    for (let i = 0; i < this.KM; i++) {
       t.fill(0);
-      for (let k = 0; k < P; k++) {
-        const m = i * P + k;
-        if (m < this.modelTaps) t[k] = secondaryPathModel[m]!;
-      }
-      this.forwardReal(t, this.Sr, this.Si, i * bins);
+      for (let k = 0; k < P && i * P + k < M; k++) t[k] = mt[i * P + k]!;
+      this.forwardReal(t, this.Sr, this.Si, i * this.bins);
     }
+  }
+
+  /** Copy the secondary-path model into `out`; returns the count written. */
+  copySecondaryPathModel(out: Float32Array): number {
+    const n = Math.min(out.length, this.modelTaps);
+    for (let i = 0; i < n; i++) out[i] = this.modelTime[i]!;
+    return n;
   }
 
   reset(): void {
@@ -363,6 +381,7 @@ export class FdFxlmsController implements Controller {
     const KX = this.KX;
     const adapt = this.adapt;
     if (n > P) n = P;
+    if (!(n > 0)) return;
 
     // 1. Reference window [x_{b−1}, x_b] and its spectrum X_b into the history ring.
     const xw = this.xWin;

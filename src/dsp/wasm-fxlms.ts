@@ -27,6 +27,7 @@ export class WasmFxlmsController implements Controller {
   private readonly k: FxlmsKernelExports;
   private readonly w: Float32Array;
   private readonly wPadded: Float32Array;
+  private readonly model: Float32Array;
   private readonly refBuf: Float32Array;
   private readonly errBuf: Float32Array;
   private readonly outBuf: Float32Array;
@@ -62,8 +63,8 @@ export class WasmFxlmsController implements Controller {
     const buf = k.memory.buffer;
     this.w = new Float32Array(buf, k.tdWeights(), this.taps);
     this.wPadded = new Float32Array(buf, k.tdWeights(), k.tdPaddedTaps());
-    const model = new Float32Array(buf, k.tdModel(), this.modelTaps);
-    for (let i = 0; i < this.modelTaps; i++) model[i] = secondaryPathModel[i]!;
+    this.model = new Float32Array(buf, k.tdModel(), this.modelTaps);
+    for (let i = 0; i < this.modelTaps; i++) this.model[i] = secondaryPathModel[i]!;
     this.refBuf = new Float32Array(buf, k.tdRef(), maxBlockSize);
     this.errBuf = new Float32Array(buf, k.tdErr(), maxBlockSize);
     this.outBuf = new Float32Array(buf, k.tdOut(), maxBlockSize);
@@ -100,6 +101,20 @@ export class WasmFxlmsController implements Controller {
     const n = Math.min(w.length, this.taps);
     for (let i = 0; i < n; i++) this.w[i] = w[i]!;
     for (let i = n; i < this.taps; i++) this.w[i] = 0;
+  }
+
+  /** Replace the secondary-path model in place (M taps at most; missing taps are zero). Not per block. */
+  setSecondaryPathModel(taps: ArrayLike<number>): void {
+    const n = Math.min(taps.length, this.modelTaps);
+    for (let i = 0; i < n; i++) this.model[i] = taps[i]!;
+    for (let i = n; i < this.modelTaps; i++) this.model[i] = 0;
+  }
+
+  /** Copy the secondary-path model into `out`; returns the count written. */
+  copySecondaryPathModel(out: Float32Array): number {
+    const n = Math.min(out.length, this.modelTaps);
+    for (let i = 0; i < n; i++) out[i] = this.model[i]!;
+    return n;
   }
 
   /** ‖f(n)‖² of the filtered-reference window. */

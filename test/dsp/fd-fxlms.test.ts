@@ -286,6 +286,29 @@ describe('FdFxlmsController', () => {
     expect(outAlt).toBeLessThan(3 * outFull);
   });
 
+  it('should follow a secondary-path model replaced in place, as the time-domain reference does', () => {
+    // Same check as the block-LMS equivalence (Ferrara 1980), across a change of ŝ: the model spectra
+    // are recomputed, the filtered-reference history made with the old model stays as it is.
+    const rng = new Random(45);
+    const P = 32;
+    const cfg: FxlmsConfig = { algorithm: 'fxlms', taps: 100, stepSize: 1e-3, update: 'block' };
+    const s = randomModel(70, rng);
+    const replacement = randomModel(50, rng);
+    for (const kernel of ['js', 'wasm'] as const) {
+      const fd = new FdFxlmsController(cfg, s, P, { constraint: 'full', precision: 'float32', kernel });
+      const td = new FxlmsController(cfg, s, P);
+      const y1 = new Float32Array(P);
+      const y2 = new Float32Array(P);
+      openLoop(fd, y1, td, y2, 20, rng);
+      fd.setSecondaryPathModel(replacement);
+      td.setSecondaryPathModel(replacement);
+      expect(openLoop(fd, y1, td, y2, 40, rng)).toBeLessThanOrEqual(1e-4);
+      const back = new Float32Array(70);
+      fd.copySecondaryPathModel(back);
+      expect(Array.from(back.subarray(0, 50))).toEqual(Array.from(replacement));
+    }
+  });
+
   it('should refuse block sizes that are not powers of two and per-sample updates', () => {
     const s = new Float32Array([1, 0.5]);
     const cfg: FxlmsConfig = { algorithm: 'fxlms', taps: 16, stepSize: 0.01 };

@@ -97,6 +97,36 @@ describe('WasmFxlmsController', () => {
     for (const v of out) expect(v).toBe(0);
   });
 
+  it('should follow a secondary-path model replaced in place, as the TypeScript kernel does', () => {
+    const rng = new Random(44);
+    const cfg: FxlmsConfig = { algorithm: 'fxnlms', taps: 96, stepSize: 0.2 };
+    const model = new Float32Array(40).map(() => rng.gaussian() * 0.2);
+    const js = new FxlmsController(cfg, model, 64);
+    const wasm = new WasmFxlmsController(cfg, model, 64);
+    const ref = new Float32Array(64);
+    const err = new Float32Array(64);
+    const y1 = new Float32Array(64);
+    const y2 = new Float32Array(64);
+    const replacement = new Float32Array(25).map(() => rng.gaussian() * 0.2); // shorter: the rest is zero
+    let worst = 0;
+    for (let b = 0; b < 60; b++) {
+      if (b === 20) {
+        js.setSecondaryPathModel(replacement);
+        wasm.setSecondaryPathModel(replacement);
+      }
+      rng.fillGaussian(ref, 0.5);
+      rng.fillGaussian(err, 0.3);
+      js.process(ref, err, y1, 64);
+      wasm.process(ref, err, y2, 64);
+      if (b > 0) worst = Math.max(worst, normRelError(y2, y1));
+    }
+    expect(worst).toBeLessThanOrEqual(1e-5);
+    const back = new Float32Array(40);
+    expect(wasm.copySecondaryPathModel(back)).toBe(40);
+    expect(Array.from(back.subarray(0, 25))).toEqual(Array.from(replacement));
+    expect(Array.from(back.subarray(25))).toEqual(new Array(15).fill(0));
+  });
+
   it('should refuse a model with a non-finite tap', () => {
     const cfg: FxlmsConfig = { algorithm: 'fxlms', taps: 8, stepSize: 0.01 };
     expect(() => new WasmFxlmsController(cfg, new Float32Array([1, Infinity]), 32)).toThrow(/tap 1 is not finite/);
