@@ -12,9 +12,13 @@
  *    no detection: the verdict is then 'unknown', which is honest.
  * 2. Coherence γ² between reference and error by Welch's method (Welch, 1967; welch.ts), after removing the
  *    estimated delay to the nearest sample (alignByDelay), since an unremoved delay biases γ² low. Segment
- *    length (ours): about 4 Hz resolution (the power of two nearest fs/4 from above), shortened so that at
- *    least 16 segments fit (31 with 50 % overlap), which keeps the bias of γ² between unrelated signals
- *    near 1/n_d (Carter, Knapp & Nuttall, IEEE Trans. AU-21(4), 1973) below 0.03.
+ *    length (ours): about 4 Hz resolution (the power of two nearest fs/4 from above), or with a model at least
+ *    8 times its response's length (onset to 99.9 % of its energy), the rule of welch.ts for the part of the
+ *    reference → error response a segment must hold (a reverberant room's 0.15 s response read 18 dB with 0.25 s
+ *    segments and 30 dB with 1 s ones); then shortened so that at least 16 segments fit without a model, 8 with
+ *    one, which keeps the bias of γ² between unrelated signals, about 1/n_d (Carter, Knapp & Nuttall, IEEE
+ *    Trans. AU-21(4), 1973; n_d ≈ 2× segments at 50 % overlap), below 0.07. With tones the bound grows with
+ *    the resolution (a narrower filter leaves less noise beside a tone): `resolution` reports it.
  * 3. Coherence bound, per bin −10·log10(1 − γ²) and overall 10·log10(Σ S_ee / Σ S_ee·(1 − γ²)) over the
  *    analysed bands (Nelson & Elliott, Active Control of Sound, 1992; bounds.ts), S_ee the control-off error
  *    PSD with the chosen frequency weighting, so it bounds the same weighted level the bands report. Per band
@@ -222,10 +226,15 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
   const shift = detected ? Math.round(delay.delaySamples) : 0;
   const aligned = alignByDelay(Float64Array.from(reference), Float64Array.from(errorOff), shift);
   const m = aligned.x.length;
-  let lc = options.coherenceSegmentLength ?? Math.max(64, Math.min(nextPow2(Math.ceil(fs / 4)), floorPow2(m / 16)));
+  const spread = input.model ? responseSpread(input.model.taps) : 0;
+  const wantedLc = Math.max(nextPow2(Math.ceil(fs / 4)), nextPow2(8 * spread));
+  let lc = options.coherenceSegmentLength ?? Math.max(64, Math.min(wantedLc, floorPow2(m / (input.model ? 8 : 16))));
   lc = Math.min(lc, floorPow2(m));
   const cross = welchCrossSpectra(aligned.x, aligned.y, fs, { segmentLength: lc });
-  if (cross.segmentCount < 16) {
+  if (lc < wantedLc && options.coherenceSegmentLength === undefined) {
+    notes.coherenceSegments = `the recordings are too short for segments of 8 times the model's response (${wantedLc} samples): with ${lc} the coherence of a reverberant path reads low; record longer`;
+  }
+  if (cross.segmentCount < 12) {
     notes.coherence = `only ${cross.segmentCount} segments were averaged for the coherence: it reads high between unrelated signals (about 1/${cross.segmentCount}); record longer`;
   }
   if (!detected) {
@@ -343,6 +352,23 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
     model,
     notes,
   };
+}
+
+/** Samples from a response's first non-zero tap to where 99.9 % of its energy has arrived. */
+function responseSpread(taps: ArrayLike<number>): number {
+  let total = 0;
+  let first = -1;
+  for (let i = 0; i < taps.length; i++) {
+    total += taps[i]! * taps[i]!;
+    if (first < 0 && taps[i] !== 0) first = i;
+  }
+  if (!(total > 0)) return 0;
+  let acc = 0;
+  for (let i = 0; i < taps.length; i++) {
+    acc += taps[i]! * taps[i]!;
+    if (acc >= 0.999 * total) return i - first + 1;
+  }
+  return taps.length - first;
 }
 
 /** 10·log10(total / residual); 0 for a silent band. */
