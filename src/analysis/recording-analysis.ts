@@ -264,12 +264,17 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
   // 4. Levels off and on over the comparison window.
   const startS = options.comparisonStartS ?? 0;
   if (!(startS >= 0)) throw new RangeError(`comparisonStartS must be ≥ 0 s, got ${startS}`);
-  const from = (x: Signal): Signal => {
-    const s = Math.min(Math.round(startS * fs), Math.max(0, x.length - MIN_ANALYSIS_SAMPLES));
+  const from = (x: Signal, name: string): Signal => {
+    const s = Math.round(startS * fs);
+    if (x.length - s < MIN_ANALYSIS_SAMPLES) {
+      throw new RangeError(
+        `comparisonStartS (${startS} s) leaves ${Math.max(0, x.length - s)} samples of ${name} (${(x.length / fs).toFixed(2)} s long); at least ${MIN_ANALYSIS_SAMPLES} are needed`,
+      );
+    }
     return x.subarray(s) as Signal;
   };
-  const offPart = from(errorOff);
-  const onPart = input.errorOn ? from(input.errorOn) : null;
+  const offPart = from(errorOff, 'errorOff');
+  const onPart = input.errorOn ? from(input.errorOn, 'errorOn') : null;
   const shortest = Math.min(offPart.length, onPart ? onPart.length : Infinity);
   const wanted = segmentLengthForBands(fs, { fraction, lowHz: bandList[0]!.centerHz });
   const lb = Math.min(wanted, floorPow2(shortest));

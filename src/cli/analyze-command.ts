@@ -4,7 +4,7 @@
  * (causality against the model's delay), and how much did it remove (band attenuation with control on).
  */
 import { parseArgs } from 'node:util';
-import { analyzeRecordings, type RecordingAnalysis } from '../analysis/recording-analysis.ts';
+import { analyzeRecordings, MIN_ANALYSIS_SAMPLES, type RecordingAnalysis } from '../analysis/recording-analysis.ts';
 import type { BandFraction } from '../analysis/bands.ts';
 import type { FrequencyWeighting } from '../analysis/weighting.ts';
 import { InputError, readBytes, writeOutputs } from '../io/files-node.ts';
@@ -181,6 +181,12 @@ export async function analyzeCommand(argv: string[]): Promise<number> {
     throw new InputError(`the recordings have different sample rates (${rates.map(([f, p, r]) => `${f} "${p}" ${r} Hz`).join(', ')}); resample them to one rate first`);
   }
   const fs = ref.wav.sampleRate;
+  if (fromS !== undefined) {
+    const shortest = Math.min(err.samples.length, on ? on.samples.length : Infinity);
+    if (shortest - Math.round(fromS * fs) < MIN_ANALYSIS_SAMPLES) {
+      throw new UsageError(`--from ${fromS} s leaves less than ${MIN_ANALYSIS_SAMPLES} samples of the error recording${on ? 's' : ''} (${(shortest / fs).toFixed(2)} s long)`);
+    }
+  }
   const notes: Record<string, string> = {};
   let model: PathModel | null = null;
   if (values.model) {

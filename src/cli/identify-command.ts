@@ -5,6 +5,7 @@
  * path-model file that `controller.modelFile` can name.
  */
 import { createHash } from 'node:crypto';
+import { existsSync, statSync } from 'node:fs';
 import { basename, dirname } from 'node:path';
 import { parseArgs } from 'node:util';
 import { InputError, readBytes, writeOutputs } from '../io/files-node.ts';
@@ -127,7 +128,9 @@ export async function identifyCommand(argv: string[]): Promise<number> {
   const taps = numberFlag('taps', values.taps, 1, 65536, true);
   const stepSize = numberFlag('step-size', values['step-size'], 1e-6, 1.999);
   const out = values.out;
-  if (out !== undefined && (out === '' || out.endsWith('/'))) throw new UsageError(`--out must name a file, e.g. model.json, got "${out}"`);
+  if (out !== undefined && (out === '' || out.endsWith('/') || (existsSync(out) && statSync(out).isDirectory()))) {
+    throw new UsageError(`--out must name a file, e.g. model.json, got "${out}"${out.endsWith('/') || out === '' ? '' : ' (a folder)'}`);
+  }
 
   const path = positionals[0]!;
   const withDisturbance = Boolean(values['with-disturbance']);

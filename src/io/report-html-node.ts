@@ -64,12 +64,13 @@ export function simulationReportHtml(summary: SimulationReportSummary, result: S
   const analysis = analyzeRecordings(
     {
       sampleRate: result.sampleRate,
-      reference: sig.reference,
+      reference: options.referenceOff ?? sig.reference,
       errorOff: sig.errorOff,
       errorOn: sig.errorOn,
       ...(delayMs !== null ? { model: { taps: model, delayMs } } : {}),
     },
-    { comparisonStartS: 0.75 * result.durationS },
+    // The summary's steady state, the last 25 % of the run, or as much of the end as the analysis needs.
+    { comparisonStartS: Math.min(0.75 * result.durationS, (sig.errorOff.length - MIN_ANALYSIS_SAMPLES) / result.sampleRate) },
   );
   return renderSimulationReport(summary, result, analysis, readReportAssets(), options);
 }

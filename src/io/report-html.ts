@@ -464,6 +464,11 @@ function thinLevels(timeS: ArrayLike<number>, levels: ArrayLike<number>[], max =
 export interface SimulationReportOptions {
   /** The true secondary path, drawn beside the model. */
   trueSecondaryPath?: ArrayLike<number>;
+  /**
+   * The reference microphone of the control-off run. The recorded `reference` is the control-on run's, which
+   * with a feedback path also holds the loudspeaker; the coherence with the control-off error wants this one.
+   */
+  referenceOff?: Float32Array;
   /** Why the spectral analysis is missing, when `analysis` is null. */
   analysisSkipped?: string;
 }

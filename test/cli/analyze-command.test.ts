@@ -193,6 +193,11 @@ describe('ancbench analyze', () => {
       expect(err.join('')).toMatch(/--model ".*model\.json": invalid path model:\n {2}sampleRate: /);
     });
 
+    it('should refuse a comparison start past the end of the recordings', async () => {
+      expect(await main(['analyze', ...simArgs(), '--from', '3.9'])).toBe(2);
+      expect(err.join('')).toMatch(/--from 3\.9 s leaves less than 1024 samples of the error recordings \(4\.00 s long\)/);
+    });
+
     it('should refuse missing flags and unknown values with status 2', async () => {
       expect(await main(['analyze', '--ref', signals()])).toBe(2);
       expect(err.join('')).toMatch(/analyze needs --err/);

@@ -157,5 +157,9 @@ describe('analysis and simulation reports', () => {
     const html = simulationReportHtml({ ...r, scenario: 's.json', name: null, outputCeilingDbfs: -6 }, r);
     expect(html).toMatch(/the run is too short for spectra \(400 samples, at least 1024 needed\)/);
     expect(embedded(html).plots.map((p) => p.title)).toEqual(['Error microphone level', 'Secondary-path model: impulse response', 'Secondary-path model: magnitude']);
+    // 0.2 s: long enough for spectra, though its last 25 % (400 samples) is not; the end of the run is used.
+    const r2 = simulate(parseScenario({ ...sc, durationS: 0.2 }), { record: true });
+    const html2 = simulationReportHtml({ ...r2, scenario: 's.json', name: null, outputCeilingDbfs: -6 }, r2);
+    expect(embedded(html2).plots).toHaveLength(7);
   });
 });
