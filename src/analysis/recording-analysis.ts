@@ -240,8 +240,9 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
   if (!detected) {
     const cap = boundOfCoherence(coherenceDelayBias(0.01 * fs, lc));
     notes.alignment =
-      'no delay was found to align the reference and error before the coherence was estimated: an unremoved delay lowers it ' +
-      `(a 10 ms delay would cap the bound near ${cap.toFixed(0)} dB with these ${((1000 * lc) / fs).toFixed(0)} ms segments), so read the bound as a lower estimate`;
+      'no delay was found to align the reference and error before the coherence was estimated: an unremoved delay lowers the ' +
+      `coherence of broadband noise (a 10 ms delay would cap its bound near ${cap.toFixed(0)} dB with these ${((1000 * lc) / fs).toFixed(0)} ms segments; ` +
+      'steady tones are not affected), so read the bound for broadband noise as a lower estimate';
   }
   const boundSpectrum = coherenceBoundSpectrum(cross.coherence);
 
