@@ -101,7 +101,7 @@ export function inputNonFinite(tel: Telemetry, timeS: number, channel: number, c
 export function fillEngineExtras(engine: Engine, frame: Float64Array, state: EngineEventState): void {
   const t = tonal(engine);
   const h = t ? t.harmonics : 0;
-  frame[M.toneHz] = t ? t.frequencyHz : NaN;
+  frame[M.toneHz] = t && t.frequencyKnown ? t.frequencyHz : NaN;
   frame[M.toneLocked] = t ? (t.trackerLocked ? 1 : 0) : NaN;
   frame[M.toneHarmonics] = t ? h : NaN;
   const r = state.harmonic;

@@ -10,10 +10,10 @@ import { receive, applyEngineMessage, copyWeights, fillEngineExtras, relayEngine
  * engine, loudspeaker) in real time with PlantLoop and plays what a listener at the error mic would
  * hear, so colleagues hear the noise fade when control starts.
  *
- * Block size: the page hands a scenario copy whose sampleRate is this context's and whose blockSize
- * is the smallest power of two ≥ max(32, render quantum) (validated there with parseScenario, which
- * also checks that the secondary path is at least one block long). Each quantum is one step of the
- * loop, or several when a quantum is longer than the block.
+ * Block size: the scenario's own (the context runs at the scenario's rate). A render quantum longer
+ * than a block is processed in several steps; a shorter one is one step of its own length, which
+ * PlantLoop allows (n ≤ blockSize). The secondary path is then still at least one block long, as the
+ * scenario validator demands, so the loop stays exact.
  *
  * Listening path: error-mic signal (control on, or the control-off twin for comparison) × monitor
  * gain, then its own output limiter (zero-latency mode: smooth gain reduction, then a hard ceiling at

@@ -71,6 +71,9 @@ const TONE: PlotConfig = {
   series: [{ label: 'tracked tone', colorVar: '--ancb-series-now', unit: 'Hz' }],
 };
 
+/** Output cap applied when switching to live microphones, dBFS (start low). */
+export const LIVE_START_CAP_DBFS = -20;
+
 export const DEFAULT_SETTINGS: ControlSettings = { controller: { algorithm: 'fxnlms', taps: 64, stepSize: 0.002 }, ceilingDbfs: -6, adaptation: true };
 
 export class AncbApp extends LitElement {
@@ -372,7 +375,7 @@ export class AncbApp extends LitElement {
       this.$<AncbTones>('ancb-tones')?.show(d, nowMs);
       if (d.guardState !== this.guardState) this.guardState = d.guardState;
       const setup = this.$<AncbLiveSetup>('ancb-live-setup');
-      if (setup && this.busy === 'identify') setup.progress = d.probeProgress;
+      if (setup && this.busy === 'identify') setup.showProgress(d.probeProgress);
     }
     if (nowMs - this.lastPlotMs >= PLOT_INTERVAL_MS && d.histT.length > 1) {
       this.lastPlotMs = nowMs;
@@ -443,6 +446,7 @@ export class AncbApp extends LitElement {
     this.busy = 'start';
     this.warnings = [];
     this.stale = '';
+    this.toneSummary = '';
     this.$<AncbEvents>('ancb-events')?.clear();
     try {
       if (this.source === 'sim') {
@@ -454,6 +458,13 @@ export class AncbApp extends LitElement {
         this.status = `Simulated plant “${e.scenario.name ?? e.id}” running at ${this.session.sampleRate / 1000} kHz. Control is off: listen, then press Control.`;
       } else {
         this.display.reset('live');
+        const c = this.settings.controller;
+        if (this.choice.layout === 'err-only' && (c.algorithm !== 'tonal' || c.frequencySource !== 'error')) {
+          this.warnings = [
+            ...this.warnings,
+            'one-mic layout: choose the tone follower with “Tone from: error mic” under Controller (broadband FxLMS needs a reference mic)',
+          ];
+        }
         await this.session.startLive(this.choice, this.settings);
         // access was granted by opening the microphones: list the devices for the pickers
         if (!this.devices) void this.refreshDevices();
@@ -498,6 +509,11 @@ export class AncbApp extends LitElement {
     this.source = s;
     this.display.reset(s);
     this.status = s === 'sim' ? 'Stopped. Press Start to run the simulated plant.' : 'Live microphones: allow access, choose devices, then Start.';
+    if (s === 'live' && this.settings.ceilingDbfs > LIVE_START_CAP_DBFS) {
+      // start low: a real loudspeaker follows
+      this.settings = { ...this.settings, ceilingDbfs: LIVE_START_CAP_DBFS };
+      this.status += ` The output cap is set to ${LIVE_START_CAP_DBFS} dBFS for a safe start; raise it slowly.`;
+    }
   }
 
   private async onSettings(e: CustomEvent<ControlSettings>): Promise<void> {
@@ -707,9 +723,11 @@ export class AncbApp extends LitElement {
               summary=${this.modelSource === 'scenario' ? 'Model from the scenario (dashed: true path)' : this.modelSource === 'identified' ? 'Identified by sweep' : ''}></ancb-plot>
             <ancb-plot id="plot-magnitude" heading="Secondary-path model: magnitude" .config=${MAGNITUDE}
               placeholder=${this.modelSource === 'none' ? 'No model yet.' : ''}></ancb-plot>
-            <ancb-plot id="plot-tone" heading="Tracked tone frequency" .config=${TONE}
-              placeholder=${this.toneSummary ? '' : 'The tone follower is not running. Its tracked frequency appears here when the tonal controller runs.'}
-              summary=${this.toneSummary}></ancb-plot>
+            ${this.settings.controller.algorithm === 'tonal'
+              ? html`<ancb-plot id="plot-tone" heading="Tracked tone frequency" .config=${TONE}
+                  placeholder=${this.toneSummary ? '' : 'Waiting for the tone follower: start the audio and switch control on.'}
+                  summary=${this.toneSummary}></ancb-plot>`
+              : ''}
             <ancb-tones></ancb-tones>
           </div>
           <ancb-events></ancb-events>

@@ -20,7 +20,6 @@ export class AncbLiveSetup extends LitElement {
     choice: { attribute: false },
     open: { type: Boolean },
     busy: {},
-    progress: { type: Number },
     result: { attribute: false },
     loaded: { type: Boolean },
     geometry: { attribute: false },
@@ -79,7 +78,6 @@ export class AncbLiveSetup extends LitElement {
   declare choice: DeviceChoice;
   declare open: boolean;
   declare busy: '' | 'permission' | 'identify' | 'geometry' | 'open';
-  declare progress: number;
   declare result: IdentificationResult | null;
   /** Whether `result` is the model the engine uses. */
   declare loaded: boolean;
@@ -95,7 +93,6 @@ export class AncbLiveSetup extends LitElement {
     this.choice = { layout: 'stereo', refDeviceId: '', errDeviceId: '', refChannel: 0, errChannel: 1, outputDeviceId: '' };
     this.open = false;
     this.busy = '';
-    this.progress = NaN;
     this.result = null;
     this.loaded = false;
     this.geometry = null;
@@ -103,6 +100,12 @@ export class AncbLiveSetup extends LitElement {
     this.reportedLatencyMs = NaN;
     this.probeDbfs = -30;
     this.firTaps = 256;
+  }
+
+  /** Probe progress 0 … 1, set by the display loop straight on the bar (no re-render). */
+  showProgress(fraction: number): void {
+    const bar = this.renderRoot.querySelector('progress');
+    if (bar && Number.isFinite(fraction)) bar.value = fraction;
   }
 
   private fire(name: string, detail?: unknown): void {
@@ -174,7 +177,7 @@ export class AncbLiveSetup extends LitElement {
           @change=${(e: Event) => (this.firTaps = Math.max(16, Math.min(4096, Math.round(Number((e.target as HTMLInputElement).value)) || 256)))} /><span class="small muted">taps after the delay</span></span>
       </div>
       <p><button id="identify" class="primary" ?disabled=${!this.open || busy} @click=${() => this.fire('ancb-identify', { probeDbfs: this.probeDbfs, firTaps: this.firTaps })}>${busy ? 'Identifying…' : r ? 'Identify again' : 'Identify secondary path'}</button></p>
-      ${busy ? html`<progress max="1" .value=${Number.isFinite(this.progress) ? this.progress : 0} aria-label="probe progress"></progress>` : ''}
+      ${busy ? html`<progress max="1" value="0" aria-label="probe progress"></progress>` : ''}
       ${!this.open ? html`<p class="muted small">Open the microphones first (Start).</p>` : ''}
       ${r
         ? html`<dl>

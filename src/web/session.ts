@@ -79,11 +79,14 @@ export function scenarioController(sc: Scenario, c: ControllerConfig): Scenario[
   return { algorithm: c.algorithm, taps: c.taps, stepSize: c.stepSize, ...leak, ...keep };
 }
 
-/** A scenario copy for a context: same rate; the block stays the scenario's unless a quantum exceeds it. */
-export function scenarioForContext(sc: Scenario, quantum: number, settings: ControlSettings): Scenario {
-  let block = sc.blockSize;
-  while (block < quantum && block < 4096) block *= 2;
-  return parseScenario({ ...sc, blockSize: block, outputCeilingDbfs: settings.ceilingDbfs, controller: scenarioController(sc, settings.controller) });
+/**
+ * The scenario as the panel runs it: its own rate and block size (the worklet splits each render
+ * quantum into steps of at most one block; when the block divides the quantum, as 32 … 128 do 128,
+ * the run matches the command-line simulator's block for block), with the panel's controller
+ * settings and output cap.
+ */
+export function scenarioForPanel(sc: Scenario, settings: ControlSettings): Scenario {
+  return parseScenario({ ...sc, outputCeilingDbfs: settings.ceilingDbfs, controller: scenarioController(sc, settings.controller) });
 }
 
 /** Whether going from one controller setting to another needs a new engine (weights start again). */
@@ -196,7 +199,7 @@ export class Session {
   async startSim(sc: Scenario, settings: ControlSettings, monitorGainDb: number): Promise<void> {
     await this.stop();
     const ctx = await this.context(sc.sampleRate);
-    const scenario = scenarioForContext(sc, 128, settings);
+    const scenario = scenarioForPanel(sc, settings);
     const telemetry = new TelemetryChannel(30, 4096, this.forcePosted);
     const node = createSimNode(ctx, {
       scenario,
