@@ -73,7 +73,9 @@ describe('decodeWav', () => {
     it('should refuse a file cut inside its header', () => {
       const whole = encodeWavInt16([new Float32Array(8)], 8000);
       expect(decodeError(whole.slice(0, 10)).message).toMatch(/too short to be a WAV file \(10 bytes\)/);
-      expect(decodeError(whole.slice(0, 30)).message).toMatch(/no "data" chunk/);
+      // RIFF header 12 bytes, 'fmt ' chunk 8 + 16, then the 'data' chunk header at byte 36.
+      expect(decodeError(whole.slice(0, 30)).message).toMatch(/the "fmt " chunk is damaged \(16 bytes\)/);
+      expect(decodeError(whole.slice(0, 40)).message).toMatch(/no "data" chunk: the file holds no audio/);
     });
 
     it('should refuse a data chunk without samples', () => {
@@ -82,17 +84,13 @@ describe('decodeWav', () => {
     });
 
     it('should refuse encodings it does not read, saying which it reads', () => {
-      // Format codes: 6 A-law, 7 µ-law, 0x11 IMA ADPCM (Microsoft RIFF registry, from memory); 12-bit PCM is rare.
-      const cases = [
-        { format: 6, bits: 8, got: /bit depth "8a", format 6/ },
-        { format: 7, bits: 8, got: /bit depth "8m", format 7/ },
-        { format: 1, bits: 12, got: /bit depth "12", format 1/ },
-      ];
-      for (const c of cases) {
-        const e = decodeError(wavBytes({ format: c.format, channels: 1, sampleRate: 8000, bits: c.bits, data: new Uint8Array(64) }));
-        expect(e.message).toMatch(c.got);
-        expect(e.message).toMatch(/ancbench reads 8\/16\/24\/32-bit integer PCM and 32\/64-bit float/);
+      // Format codes: 6 A-law, 7 µ-law, 0x11 IMA ADPCM, 0x55 MPEG layer 3 (Microsoft RIFF registry, from memory).
+      for (const [format, bits] of [[6, 8], [7, 8], [0x11, 4], [0x55, 16]] as const) {
+        const e = decodeError(wavBytes({ format, channels: 1, sampleRate: 8000, bits, data: new Uint8Array(64) }));
+        expect(e.message).toBe(`take.wav: format code 0x${format.toString(16)} is compressed or not supported; ancbench reads integer PCM (8/16/24/32-bit) and IEEE float (32/64-bit)`);
       }
+      const e12 = decodeError(wavBytes({ format: 1, channels: 1, sampleRate: 8000, bits: 12, data: new Uint8Array(64) }));
+      expect(e12.message).toMatch(/12-bit integer PCM is not supported/);
     });
 
     it('should refuse an implausible sample rate or no channels', () => {
@@ -138,29 +136,30 @@ describe('decodeWav', () => {
     });
   });
 
-  // Known bugs in src/io/wav.ts, pinned with it.fails so that the fix turns them red and the marker is removed.
-  // Each would be silently wrong, which the command line must never be.
-  describe('known bugs (reported; remove .fails when fixed)', () => {
-    it.fails('should read WAVE_FORMAT_EXTENSIBLE float (sub-format 3) as float, not as 32-bit integers', () => {
-      // Recorders write 32-bit float with the extensible header; wavefile reports bit depth "32" for it, so the
-      // samples are scaled as integers (0.25 reads 0.488).
+  // Cases a general-purpose WAV library decoded silently wrong (found while writing these tests; wav.ts now
+  // parses the chunks itself).
+  describe('with files a library would misread', () => {
+    it('should read WAVE_FORMAT_EXTENSIBLE float (sub-format 3) as float, not as 32-bit integers', () => {
       const w = decodeWav(wavBytes({ format: 0xfffe, channels: 1, sampleRate: 48000, bits: 32, data: bytesOf(Float32Array.of(0.25, -0.5)), extension: extensible(3, 32) }));
+      expect(w.bitDepth).toBe('32f');
       expect(Array.from(w.channels[0]!)).toEqual([0.25, -0.5]);
     });
 
-    it.fails('should refuse a compressed format code (MP3 in WAV, 0x55) instead of decoding its bytes as PCM', () => {
-      decodeError(wavBytes({ format: 0x55, channels: 1, sampleRate: 8000, bits: 16, data: new Uint8Array(100) }));
+    it('should refuse a compressed sub-format inside WAVE_FORMAT_EXTENSIBLE', () => {
+      const e = decodeError(wavBytes({ format: 0xfffe, channels: 1, sampleRate: 8000, bits: 16, data: new Uint8Array(8), extension: extensible(0x55, 16) }));
+      expect(e.message).toMatch(/format code 0x55 is compressed or not supported/);
     });
 
-    it.fails('should not read the RIFF pad byte after an odd-length data chunk as a sample', () => {
-      // RIFF pads odd-length chunks with one byte that is not part of the chunk; it is read as a fourth sample (−1).
+    it('should not read the RIFF pad byte after an odd-length data chunk as a sample', () => {
+      // RIFF pads odd-length chunks with one byte that is not part of the chunk.
       const w = decodeWav(wavBytes({ format: 1, channels: 1, sampleRate: 8000, bits: 8, data: Uint8Array.of(0, 128, 192) }));
       expect(Array.from(w.channels[0]!)).toEqual([-1, 0, 0.5]);
     });
 
-    it.fails('should refuse a data chunk that ends inside a sample frame', () => {
-      // 7 bytes of 16-bit stereo (4-byte frames): the last 3 bytes are dropped without a word.
-      decodeError(wavBytes({ format: 1, channels: 2, sampleRate: 8000, bits: 16, data: new Uint8Array(7) }));
+    it('should refuse a data chunk that ends inside a sample frame', () => {
+      // 7 bytes of 16-bit stereo (4-byte frames).
+      const e = decodeError(wavBytes({ format: 1, channels: 2, sampleRate: 8000, bits: 16, data: new Uint8Array(7) }));
+      expect(e.message).toMatch(/the data chunk \(7 bytes\) ends inside a sample frame of 4 bytes/);
     });
   });
 });
