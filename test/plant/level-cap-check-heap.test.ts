@@ -1,0 +1,79 @@
+import { describe, it, expect } from 'vitest';
+import { setFlagsFromString, getHeapSpaceStatistics } from 'node:v8';
+import { runInNewContext } from 'node:vm';
+import { LevelCapCheck } from '../../src/plant/level-cap-check.ts';
+import { createEventBatch } from '../../src/engine/events.ts';
+
+// No allocation per block (DESIGN.md: the AudioWorklet drives `process` on the audio thread).
+// Method as in test/engine/guard-heap.test.ts: a collection is forced, blocks run, and the growth of
+// V8's young generation ("new space") is read before another collection could hide garbage; the
+// smallest growth of five rounds counts. Any per-block allocation (≥ 12 bytes) over 4000 blocks is
+// ≥ 48 kB, against a 16 kB budget. A control step that allocates proves the harness sees it.
+
+setFlagsFromString('--expose-gc');
+const gc = runInNewContext('gc') as () => void;
+
+const BLOCKS = 4000;
+const ROUNDS = 5;
+const BUDGET_BYTES = 16 * 1024;
+const N = 16;
+
+function newSpaceUsed(): number {
+  for (const s of getHeapSpaceStatistics()) if (s.space_name === 'new_space') return s.space_used_size;
+  throw new Error('V8 reports no new_space');
+}
+
+function heapGrowth(step: () => void): number {
+  for (let i = 0; i < BLOCKS; i++) step();
+  let smallest = Infinity;
+  for (let r = 0; r < ROUNDS; r++) {
+    gc();
+    const before = newSpaceUsed();
+    for (let i = 0; i < BLOCKS; i++) step();
+    smallest = Math.min(smallest, newSpaceUsed() - before);
+  }
+  return smallest;
+}
+
+describe('LevelCapCheck per-block allocation', () => {
+  it('should be visible to the harness when a step allocates (control)', () => {
+    const sink: number[][] = [[]];
+    expect(heapGrowth(() => (sink[0] = [1, 2]))).toBeGreaterThan(BUDGET_BYTES);
+  });
+
+  it('should be nil while the check ramps tone, noise and the adversarial signal, with error-mic input and event draining', () => {
+    const config = (rampS: number) => new LevelCapCheck({
+      sampleRate: 8000,
+      blockSize: N,
+      limiter: { ceilingDbfs: -6, truePeak: true },
+      guard: { outputAtCeiling: { action: 'mute', gainReductionDb: 1 } },
+      signal: { rampS, holdS: 0.5, gapS: 0.25 },
+    });
+    const out = new Float32Array(N);
+    const mic = new Float32Array(N);
+    const batch = createEventBatch(64);
+    const st = { drained: 0 };
+    const block = (chk: LevelCapCheck) => {
+      for (let i = 0; i < N; i++) mic[i] = 0.5 * out[i]!;
+      chk.process(out, N, mic);
+      // what a worklet does with events: copy them into a preallocated batch to post
+      if (chk.engine.events.size > 32) st.drained += chk.engine.events.drainInto(batch);
+    };
+    // Warm-up: two whole short checks, so every branch (limiter engaging, guard events, special
+    // values, segment changes) has run and been optimised; a branch first taken while measuring
+    // runs unoptimised for a while and allocates boxed numbers, which is the JIT, not the code.
+    for (let w = 0; w < 2; w++) {
+      const short = config(0.5);
+      while (!short.done) block(short);
+    }
+    // 24 000 blocks of 16 samples at 8 kHz = 48 s: the three 15.75 s kinds are all crossed while measured
+    const chk = config(15);
+    expect(chk.totalSamples).toBeGreaterThan(5 * BLOCKS * N);
+    expect(chk.totalSamples).toBeLessThan(6 * BLOCKS * N);
+    const growth = heapGrowth(() => block(chk));
+    expect(growth).toBeLessThan(BUDGET_BYTES);
+    const r = chk.result();
+    expect(r.samplesOverCeiling).toBe(0);
+    expect(r.nonFiniteInputSamples).toBe(3); // the adversarial hold was reached while measuring
+  });
+});
