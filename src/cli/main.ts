@@ -9,6 +9,7 @@ import { toolVersion, UsageError } from './common.ts';
 import { simulateCommand } from './simulate-command.ts';
 import { identifyCommand } from './identify-command.ts';
 import { analyzeCommand } from './analyze-command.ts';
+import { checkLimitsCommand } from './check-limits-command.ts';
 
 type Command = (argv: string[]) => Promise<number>;
 
@@ -16,6 +17,7 @@ const COMMANDS: Record<string, { run: Command; summary: string }> = {
   simulate: { run: simulateCommand, summary: 'run a scenario closed-loop, control off vs on' },
   identify: { run: identifyCommand, summary: 'identify the secondary path of a scenario\'s simulated plant' },
   analyze: { run: analyzeCommand, summary: 'coherence bound, causality and band attenuation from recordings' },
+  'check-limits': { run: checkLimitsCommand, summary: 'ramp test signals past the output cap and check that it holds' },
 };
 
 function usage(): string {

@@ -658,6 +658,11 @@ export class LevelCapCheck {
     const reasons: string[] = [];
     const notes: string[] = [];
     if (this.nonFinite > 0) reasons.push(`${this.nonFinite} output samples were not finite`);
+    // JSON writers turn non-finite figures into null: say why beside them
+    for (const [k, v] of [['maxSamplePeakDbfs', maxSamplePeakDbfs], ['maxTruePeakDbtp', maxTruePeakDbtp]] as const) {
+      if (v === Infinity) notes.push(`${k} is infinite: an output sample was ±Infinity`);
+      else if (v === -Infinity) notes.push(`${k} is −Infinity: the output was silent`);
+    }
     if (this.over > 0) reasons.push(`${this.over} output samples exceeded the ${c.toFixed(2)} dBFS ceiling (largest ${maxSamplePeakDbfs.toFixed(3)} dBFS)`);
     const truePeakMode = this.limiterMode === 'true-peak';
     if (truePeakMode && this.overTrue > 0) {
