@@ -31,7 +31,7 @@ since the true path is known here, the normalised misalignment over the excited 
   --duration S        probe duration in seconds (default: noise max(3, 60·taps/fs), sweep long
                       enough for the 2nd harmonic to clear the model)
   --taps N            model length (default: controller.modelTaps, else the true path's length
-                      rounded up to 32)
+                      to within 10⁻⁶ of its energy, rounded up to 32)
   --color C           noise probe colour: white (default) or pink
   --step-size MU      NLMS normalised step size in (0, 2) (default 0.1)
   --with-disturbance  keep the scenario's noise sources running while measuring

@@ -12,8 +12,9 @@
  *         → + disturbance and sensor noise (PlantLoop in idle mode, same seeds as the simulator) → clip at ±1 → mic
  *
  * Defaults (ours, stated in the README): probe level −20 dBFS (AES17: RMS for noise; for the sweep the level of
- * a sine, peak 10^(L/20)); model length the scenario's `controller.modelTaps`, else the true path's length
- * rounded up to 32 taps; noise probe white, NLMS step 0.1, duration max(3 s, 60·L/fs) (white-probe NLMS loses
+ * a sine, peak 10^(L/20)); model length the scenario's `controller.modelTaps`, else the true path's length up to
+ * where all but 10⁻⁶ of its energy has arrived (a speaker high-pass gives it a long, faint tail), rounded up to
+ * 32 taps; noise probe white, NLMS step 0.1, duration max(3 s, 60·L/fs) (white-probe NLMS loses
  * about 4.34·μ̃(2 − μ̃)/L dB of misalignment per sample, so 60·L samples reach below −40 dB when noise allows);
  * sweep 20 Hz to 0.49·fs (an estimate band-limited close to Nyquist rings little before its onset, which keeps
  * the onset rule's delay exact; 0.45·fs put it 2 samples early), duration max(2 s, 1.5·L·R/(fs·ln 2)) so that the
@@ -30,7 +31,7 @@ import { bandMisalignmentDb, misalignmentDb, onsetDelaySamples } from '../analys
 import { deconvolveSweep } from '../analysis/sweep-deconvolve.ts';
 import { PolynomialNonlinearity, type PolynomialNonlinearityOptions } from './nonlinearity.ts';
 import { PathFilter } from './path-filter.ts';
-import type { Scenario } from './scenario.ts';
+import { scenarioCeilingDbfs, type Scenario } from './scenario.ts';
 import { PlantLoop } from './simulate.ts';
 import type { WavTable } from './sources.ts';
 
@@ -109,6 +110,19 @@ function trimmed(dense: Float64Array): { offset: number; taps: Float64Array } {
   return { offset: start, taps: dense.slice(start) };
 }
 
+/** Samples up to where all but `residual` of the response's energy has arrived (at least 1). */
+function energyLength(h: Float64Array, residual: number): number {
+  let total = 0;
+  for (const v of h) total += v * v;
+  if (!(total > 0)) return h.length;
+  let acc = 0;
+  for (let i = 0; i < h.length; i++) {
+    acc += h[i]! * h[i]!;
+    if (acc >= (1 - residual) * total) return i + 1;
+  }
+  return h.length;
+}
+
 export function identifySimulated(sc: Scenario, options: IdentifySimOptions): IdentifySimResult {
   const fs = sc.sampleRate;
   const B = sc.blockSize;
@@ -125,13 +139,13 @@ export function identifySimulated(sc: Scenario, options: IdentifySimOptions): Id
   const sparse = trimmed(truePath);
   const secondary = new PathFilter(sparse.offset, sparse.taps, B);
 
-  const defaultTaps = Math.min(65536, Math.ceil(truePath.length / 32) * 32);
+  const defaultTaps = Math.min(65536, Math.ceil(energyLength(truePath, 1e-6) / 32) * 32);
   const L = options.modelTaps ?? sc.controller.modelTaps ?? defaultTaps;
   check(Number.isInteger(L) && L >= 1 && L <= 65536, `model length must be a whole number of taps from 1 to 65536, got ${L}`);
   if (L < truePath.length) {
     notes.modelTaps = `the model has ${L} taps but the true path is ${truePath.length} samples long (bulk delay included): its tail is cut off`;
   }
-  const ceiling = Math.pow(10, (sc.outputCeilingDbfs ?? DEFAULT_CEILING_DBFS) / 20);
+  const ceiling = Math.pow(10, scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS) / 20);
   const speaker = options.loudspeaker ? new PolynomialNonlinearity(options.loudspeaker) : null;
 
   const drive = new Float64Array(B);
