@@ -212,7 +212,7 @@ export function readableSummary(rep: CheckLimitsReport): string {
   const lines = [
     `scenario      ${rep.scenario}${rep.name ? `  (${rep.name})` : ''}`,
     `verdict       ${rep.passed ? 'PASSED: the cap held' : `FAILED: ${rep.reasons.join('; ')}`}`,
-    `cap           ${c.toFixed(2)} dBFS sample peak${rep.ceiling.spl ? ` (stricter of ${rep.ceiling.dbfsCeiling} dBFS and ${rep.ceiling.spl.peakCeilingDbSpl} dB SPL peak: ${rep.ceiling.limitedBy} rule)` : ''}`,
+    `cap           ${c.toFixed(2)} dBFS ${rep.limiterMode === 'true-peak' ? 'sample peak and 4x true peak' : 'sample peak'}${rep.ceiling.spl ? ` (stricter of ${rep.ceiling.dbfsCeiling} dBFS and ${rep.ceiling.spl.peakCeilingDbSpl} dB SPL peak: ${rep.ceiling.limitedBy} rule)` : ''}`,
     `limiter       ${rep.limiterMode}, ${rep.latencySamples} samples of look-ahead`,
     `test signal   ${x.segments.filter((s) => s.kind !== 'gap').map((s) => s.kind).join(', ')}: ${x.startDbfs.toFixed(1)} → ${x.topDbfs.toFixed(1)} dBFS, ${x.durationS.toFixed(2)} s`,
     `sample peak   ${fixed(rep.maxSamplePeakDbfs, 3)} dBFS (${fixed(rep.maxSamplePeakDbfs - c, 3)} dB from the cap), ${rep.samplesOverCeiling} samples over`,
