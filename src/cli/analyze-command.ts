@@ -24,7 +24,8 @@ can be cancelled in time (reference → error delay by GCC-PHAT against the mode
 
 WAV files: 16/24/32-bit integer or 32/64-bit float, any sample rate (the same for every file).
 A multichannel file needs its channel flag, counted from 0; the simulator's signals.wav holds
-reference 0, error with control on 1, controller output 2, error with control off 3.
+reference 0, error with control on 1, controller output 2, error with control off 3,
+reference with control off 4 (use it as --ref when the scenario has a feedback path).
 
   --ref FILE               reference microphone, control off
   --err FILE               error microphone, control off, recorded together with --ref
@@ -46,8 +47,8 @@ Example with the simulator's output:
   ancbench analyze --ref out/signals.wav --ref-channel 0 --err out/signals.wav --err-channel 3 \\
                    --control-on out/signals.wav --control-on-channel 1`;
 
-/** The simulator's four-channel layout, named in messages about multichannel files. */
-const SIMULATOR_LAYOUT = 'the simulator\'s signals.wav holds reference 0, error with control on 1, controller output 2, error with control off 3';
+/** The simulator's signals.wav layout, named in messages about multichannel files. */
+const SIMULATOR_LAYOUT = 'the simulator\'s signals.wav holds reference 0, error with control on 1, controller output 2, error with control off 3, reference with control off 4';
 
 export interface AnalyzeInputs {
   reference: { file: string; channel: number };
@@ -122,7 +123,7 @@ function pick(cache: WavCache, flag: string, file: string, channelText: string |
   let channel: number;
   if (channelText === undefined) {
     if (count > 1) {
-      throw new UsageError(`--${flag} "${file}" has ${count} channels: choose one with --${flag}-channel N (counted from 0)${count === 4 ? `; ${SIMULATOR_LAYOUT}` : ''}`);
+      throw new UsageError(`--${flag} "${file}" has ${count} channels: choose one with --${flag}-channel N (counted from 0)${count === 4 || count === 5 ? `; ${SIMULATOR_LAYOUT}` : ''}`);
     }
     channel = 0;
   } else {

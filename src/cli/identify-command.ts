@@ -148,6 +148,7 @@ export async function identifyCommand(argv: string[]): Promise<number> {
       ...(taps !== undefined ? { modelTaps: taps } : {}),
       ...(method === 'noise' ? { color } : {}),
       ...(stepSize !== undefined ? { stepSize } : {}),
+      ...(sc.loudspeaker ? { loudspeaker: sc.loudspeaker } : {}),
       onProgress: (f) => bar.update(f),
     });
   } catch (e) {

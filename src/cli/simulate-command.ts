@@ -7,6 +7,7 @@ import { loadScenarioFile } from '../io/scenario-file-node.ts';
 import { writeOutputs } from '../io/files-node.ts';
 import { encodeWavFloat32 } from '../io/wav.ts';
 import { simulate, type SimulationResult } from '../plant/simulate.ts';
+import { REPORT_FILE, simulationReportFiles } from '../io/report-html-node.ts';
 import { scenarioCeilingDbfs } from '../plant/scenario.ts';
 import { DEFAULT_CEILING_DBFS } from '../engine/engine.ts';
 import type { EngineEvent } from '../engine/events.ts';
@@ -19,9 +20,10 @@ Runs the scenario's closed loop twice with the same seed (control off, control o
 steady-state attenuation at the error mic (last 25 % of the run), convergence time, the Wiener
 bound for a filter of the same length, peak output level, and whether the controller diverged.
 
-  --out DIR   also write DIR/summary.json, DIR/attenuation.csv and DIR/signals.wav
-              (float32, 4 channels: reference, error with control on, controller output,
-              error with control off)
+  --out DIR   also write DIR/summary.json, DIR/attenuation.csv, DIR/signals.wav
+              (float32; channels 0 reference, 1 error with control on, 2 controller
+              output, 3 error with control off, 4 reference with control off) and
+              DIR/report.html (self-contained)
   --json      print one JSON object on stdout instead of the readable summary
   -h, --help  this text`;
 
@@ -131,13 +133,14 @@ export async function simulateCommand(argv: string[]): Promise<number> {
     writeOutputs(values.out, [
       { name: 'summary.json', data: safeJson(summary) + '\n' },
       { name: 'attenuation.csv', data: attenuationCsv(r) },
-      { name: 'signals.wav', data: encodeWavFloat32([sig.reference, sig.errorOn, sig.output, sig.errorOff], r.sampleRate) },
+      { name: 'signals.wav', data: encodeWavFloat32([sig.reference, sig.errorOn, sig.output, sig.errorOff, sig.referenceOff], r.sampleRate) },
+      ...simulationReportFiles(summary, r, { trueSecondaryPath: r.trueSecondaryPath, referenceOff: sig.referenceOff }),
     ]);
   }
   if (values.json) process.stdout.write(safeJson(summary, 0) + '\n');
   else {
     process.stdout.write(readableSummary(summary) + '\n');
-    if (values.out) process.stdout.write(`wrote         ${values.out}/summary.json, attenuation.csv, signals.wav\n`);
+    if (values.out) process.stdout.write(`wrote         ${values.out}/summary.json, attenuation.csv, signals.wav, ${REPORT_FILE}\n`);
   }
   return 0;
 }

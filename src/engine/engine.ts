@@ -299,38 +299,6 @@ export class Engine {
   }
 
   /**
-   * Play a probe or test signal (identification noise, a sweep, a calibration tone) through the same
-   * output stage as the controller: high-pass, ramp and limiter, so the identified path includes them
-   * and no probe sample can pass the ceiling. The controller does not run; meters of the output update.
-   * `probe` is not modified. No allocation.
-   */
-  processProbe(probe: Float32Array, out: Float32Array, n: number): void {
-    if (n > this.maxBlockSize) n = this.maxBlockSize;
-    if (n <= 0) return;
-    this.applyPending();
-    const y = this.ctrlOut;
-    for (let i = 0; i < n; i++) y[i] = probe[i]!;
-    if (!this.outputOn && this.mode !== 'muted') {
-      this.ramp.start();
-      this.outputOn = true;
-    }
-    this.highPass.process(y, y, n);
-    this.ramp.process(y, n);
-    this.limiter.process(y, out, n);
-    let opk = 0;
-    for (let i = 0; i < n; i++) {
-      const a = out[i]! < 0 ? -out[i]! : out[i]!;
-      if (a > opk) opk = a;
-    }
-    const m = this.meters;
-    m.outPeak = opk;
-    if (opk > m.maxOutPeak) m.maxOutPeak = opk;
-    m.maxOutTruePeak = this.limiter.maxTruePeak;
-    m.gainReductionDb = this.limiter.gainReductionDb;
-    m.rampGain = this.ramp.gain;
-  }
-
-  /**
    * One block: ref and err are the microphone samples of the same instants; out receives the
    * loudspeaker signal for those instants. n ≤ maxBlockSize (larger n is clamped: the host must
    * respect maxBlockSize). Non-finite input samples are replaced by silence in place by the guard.
@@ -484,5 +452,37 @@ export class Engine {
     m.frozenByLimiter = limiterFreeze ? 1 : 0;
     this.eventsSeen = this.events.pushed;
     m.events = this.eventsSeen;
+  }
+
+  /**
+   * Play a probe or test signal (identification noise, a sweep, a calibration tone) through the same
+   * output stage as the controller: high-pass, ramp and limiter, so the identified path includes them
+   * and no probe sample can pass the ceiling. The controller does not run; meters of the output update.
+   * `probe` is not modified. No allocation.
+   */
+  processProbe(probe: Float32Array, out: Float32Array, n: number): void {
+    if (n > this.maxBlockSize) n = this.maxBlockSize;
+    if (n <= 0) return;
+    this.applyPending();
+    const y = this.ctrlOut;
+    for (let i = 0; i < n; i++) y[i] = probe[i]!;
+    if (!this.outputOn && this.mode !== 'muted') {
+      this.ramp.start();
+      this.outputOn = true;
+    }
+    this.highPass.process(y, y, n);
+    this.ramp.process(y, n);
+    this.limiter.process(y, out, n);
+    let opk = 0;
+    for (let i = 0; i < n; i++) {
+      const a = out[i]! < 0 ? -out[i]! : out[i]!;
+      if (a > opk) opk = a;
+    }
+    const m = this.meters;
+    m.outPeak = opk;
+    if (opk > m.maxOutPeak) m.maxOutPeak = opk;
+    m.maxOutTruePeak = this.limiter.maxTruePeak;
+    m.gainReductionDb = this.limiter.gainReductionDb;
+    m.rampGain = this.ramp.gain;
   }
 }

@@ -79,7 +79,10 @@ export interface GuardConfig {
   outputAtCeiling?: DetectorBase & {
     /** Default 'freeze-adaptation'. */
     action?: EventAction;
-    /** Limiter gain reduction threshold, dB, 0.1 … 60. Default 3. */
+    /**
+     * Limiter gain reduction threshold, dB, 0.1 … 60. Default 1: a howl settles where the limiter's
+     * gain reduction brings the loop gain back to one, often only 1.5–3 dB.
+     */
     gainReductionDb?: number;
     /** How long it must last, ms, 1 … 60000. Default 60. */
     holdMs?: number;
@@ -294,7 +297,7 @@ export class DivergenceGuard {
     const ce = section('outputAtCeiling', config.outputAtCeiling);
     this.ceOn = bool('outputAtCeiling.enabled', ce.enabled, true);
     this.ceAction = action('outputAtCeiling.action', ce.action, 'freeze-adaptation');
-    this.ceThresholdDb = num('outputAtCeiling.gainReductionDb', ce.gainReductionDb, 3, 0.1, 60, ' dB');
+    this.ceThresholdDb = num('outputAtCeiling.gainReductionDb', ce.gainReductionDb, 1, 0.1, 60, ' dB');
     this.ceHoldSamples = Math.round((num('outputAtCeiling.holdMs', ce.holdMs, 60, 1, 60000, ' ms') * fs) / 1000);
 
     const cl = section('inputClipping', config.inputClipping);
@@ -379,6 +382,14 @@ export class DivergenceGuard {
     this.latched.fill(0);
     this.autoResumes = 0;
     this.lastSymptomS = -Infinity;
+    // symptoms are measured afresh after an acknowledgement: a persisting fault must build up its
+    // hold time again before it fires, instead of firing on the next block with the old count
+    this.clipRun.fill(0);
+    this.constRun.fill(0);
+    this.errSum = 0;
+    this.errCount = 0;
+    this.errAboveWindows = 0;
+    this.ceilingRun = 0;
     if (this.stateCode !== STATE_RUNNING) this.resume(1);
   }
 

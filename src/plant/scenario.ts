@@ -7,6 +7,7 @@
  */
 import { z } from 'zod';
 import { buildPathResponse, DEFAULT_HALF_WIDTH, type SparseResponse } from './fractional-delay.ts';
+import { roomPathsSchema, roomPathsToExplicit } from './room-paths.ts';
 
 export const SCENARIO_SCHEMA_VERSION = 1;
 
@@ -118,6 +119,8 @@ export const scenarioSchema = z.strictObject({
   seed: int(0, 0xffffffff),
   sources: z.array(sourceSchema, { error: 'must be an array of sources' }).min(1, 'needs at least one source'),
   paths: explicitPaths,
+  /** Memoryless loudspeaker nonlinearity y = x + a2·x² + a3·x³ applied to the controller output. */
+  loudspeaker: z.strictObject({ a2: num(-10, 10).optional(), a3: num(-10, 10).optional() }).optional(),
   sensorNoiseRms: sensorNoise.optional(),
   controller: controllerSchema,
   outputCeilingDbfs: num(-120, 0, 'level in dBFS (≤ 0)').optional(),
@@ -140,7 +143,12 @@ export const scenarioSchema = z.strictObject({
   ], { error: (iss) => (iss.code === 'invalid_union' ? 'kind must be one of "model-sign-flip", "step-size-scale", "nan-error", "mic-dropout"' : undefined) }), { error: 'must be an array of faults' }).max(1000).optional(),
 });
 
-export type Scenario = z.infer<typeof scenarioSchema>;
+/** A validated scenario; room paths are already turned into explicit paths. */
+/** The same file with `paths: {room: {...}, ioLatencyMs}`: an image-source room instead of explicit paths. */
+export const roomScenarioSchema = scenarioSchema.extend({ paths: roomPathsSchema });
+
+/** A validated scenario; room paths are already turned into explicit paths. */
+export type Scenario = z.infer<typeof scenarioSchema> & { room?: z.infer<typeof roomPathsSchema> };
 export type SourceSpec = z.infer<typeof sourceSchema>;
 export type PathSpec = z.infer<typeof pathSchema>;
 export type ControllerSpec = z.infer<typeof controllerSchema>;
@@ -171,17 +179,31 @@ function show(v: unknown): string {
  * block) are checked here too, since nothing may run on an invalid file.
  */
 export function parseScenario(value: unknown): Scenario {
-  const r = scenarioSchema.safeParse(value, { reportInput: true });
+  const paths = (value as { paths?: unknown } | null)?.paths;
+  const isRoom = typeof paths === 'object' && paths !== null && 'room' in paths;
+  const r = (isRoom ? roomScenarioSchema : scenarioSchema).safeParse(value, { reportInput: true });
   if (!r.success) {
     const problems = r.error.issues.map((iss) => {
       const where = fieldPath(iss.path);
       if (iss.code === 'unrecognized_keys') return `${where}: unknown field(s) ${iss.keys.map((k) => `"${k}"`).join(', ')}`;
-      const got = 'input' in iss ? `, got ${show(iss.input)}` : '';
+      const got = 'input' in iss && !/\bgot\b/.test(iss.message) ? `, got ${show(iss.input)}` : '';
       return `${where}: ${iss.message}${got}`;
     });
     throw new ScenarioError(problems);
   }
-  const s = r.data;
+  const data = r.data;
+  let s: Scenario;
+  if ('room' in data.paths) {
+    // image-source room: compute the four paths now, so everything downstream sees explicit paths
+    const room = data.paths;
+    try {
+      s = { ...data, paths: roomPathsToExplicit(room, data.sampleRate), room };
+    } catch (e) {
+      throw new ScenarioError([`paths.room: ${(e as Error).message}`]);
+    }
+  } else {
+    s = data as Scenario;
+  }
   const problems: string[] = [];
   const nyq = s.sampleRate / 2;
   s.sources.forEach((src, i) => {
@@ -212,10 +234,11 @@ export function parseScenario(value: unknown): Scenario {
     const r = pathResponse(p, s.sampleRate);
     if (r.taps.length > 0 && r.offset < s.blockSize) {
       const fractional = !isIntegerDelay(p.delayMs, s.sampleRate);
+      const field = s.room ? `paths.ioLatencyMs (the room's ${key} path)` : `paths.${key}.delayMs`;
       problems.push(
-        `paths.${key}.delayMs: the path's first sample arrives after ${r.offset} samples (${((r.offset / s.sampleRate) * 1000).toFixed(3)} ms), ` +
+        `${field}: the path's first sample arrives after ${r.offset} samples (${((r.offset / s.sampleRate) * 1000).toFixed(3)} ms), ` +
           `but the block loop needs at least one block, ${s.blockSize} samples (${((s.blockSize / s.sampleRate) * 1000).toFixed(3)} ms at ${s.sampleRate} Hz)` +
-          `${fractional ? `; a fractional delay also spreads ${DEFAULT_HALF_WIDTH - 1} samples early` : ''}; got ${p.delayMs} ms. ` +
+          `${fractional ? `; a fractional delay also spreads ${DEFAULT_HALF_WIDTH - 1} samples early` : ''}; got ${s.room ? `ioLatencyMs ${s.room.ioLatencyMs}` : p.delayMs} ms. ` +
           `This path includes the audio I/O latency, which is never shorter than one block`,
       );
     }

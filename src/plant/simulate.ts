@@ -9,6 +9,8 @@
  */
 import { Engine, DEFAULT_CEILING_DBFS, type EngineConfig, type EngineMode } from '../engine/engine.ts';
 import { HighPass } from '../dsp/highpass.ts';
+import { OutputLimiter } from '../dsp/limiter.ts';
+import { PolynomialNonlinearity } from './nonlinearity.ts';
 import { drainEvents, type EngineEvent } from '../engine/events.ts';
 import type { ControllerConfig } from '../engine/controller-factory.ts';
 import { Random } from '../dsp/random.ts';
@@ -42,6 +44,8 @@ export interface SimulationSignals {
   errorOn: Float32Array;
   output: Float32Array;
   errorOff: Float32Array;
+  /** The reference microphone with control off (differs from `reference` only with a feedback path). */
+  referenceOff: Float32Array;
 }
 
 export interface SimulationResult {
@@ -76,6 +80,8 @@ export interface SimulationResult {
   notes: Record<string, string>;
   /** The model the controller used. */
   secondaryPathModel: Float32Array;
+  /** The true secondary path the controller drove (output stage delay and high-pass included). */
+  trueSecondaryPath: Float64Array;
   timeline: { timeS: Float64Array; attenuationDb: Float64Array; offDbfs: Float64Array; onDbfs: Float64Array };
   signals?: SimulationSignals;
 }
@@ -181,6 +187,8 @@ export class PlantLoop {
   private readonly refAc: Float64Array;
   private readonly dAc: Float64Array;
   private readonly loopAc: Float64Array;
+  private readonly speaker: PolynomialNonlinearity | null;
+  private readonly speakerOut: Float32Array;
 
   constructor(sc: Scenario, opts: { wavs?: WavTable; secondaryPathModel?: Float32Array; startMode?: EngineMode } = {}) {
     const fs = sc.sampleRate;
@@ -201,7 +209,11 @@ export class PlantLoop {
     // scenario turns on the speaker high-pass, it is part of the true secondary path as an
     // identification would see it, and the model built from the truth includes it.
     const hp = sc.highPassHz ?? 0;
-    this.trueSecondaryPath = hp > 0 ? withHighPass(trueSecondaryPath(sc), hp, fs) : trueSecondaryPath(sc);
+    const limiterSettings = { ...(sc.limiter ?? {}), ceilingDbfs: scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS) };
+    // the limiter's look-ahead delays everything the controller plays: it is part of the secondary path
+    const lookahead = new OutputLimiter({ sampleRate: fs, maxBlockSize: B, ...limiterSettings }).latencySamples;
+    const acoustic = hp > 0 ? withHighPass(trueSecondaryPath(sc), hp, fs) : trueSecondaryPath(sc);
+    this.trueSecondaryPath = lookahead > 0 ? delayed(acoustic, lookahead) : acoustic;
     this.secondaryPathModel = opts.secondaryPathModel ?? imperfectModel(this.trueSecondaryPath, sc.controller);
     try {
       this.engine = new Engine({
@@ -209,7 +221,7 @@ export class PlantLoop {
         maxBlockSize: B,
         controller: engineControllerConfig(sc),
         secondaryPathModel: this.secondaryPathModel,
-        limiter: { ...(sc.limiter ?? {}), ceilingDbfs: scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS) },
+        limiter: limiterSettings,
         highPassHz: hp,
         dcBlockerHz: 0, // the simulated speaker reproduces every frequency the scenario asks for
         startMode: opts.startMode ?? 'control',
@@ -235,6 +247,8 @@ export class PlantLoop {
     this.errOn = new Float32Array(B);
     this.errOff = new Float32Array(B);
     this.out = new Float32Array(B);
+    this.speaker = sc.loudspeaker && (sc.loudspeaker.a2 || sc.loudspeaker.a3) ? new PolynomialNonlinearity(sc.loudspeaker) : null;
+    this.speakerOut = new Float32Array(B);
   }
 
   /** Faults due in this block take effect at its start (sample-accurate for drop-outs and NaN). */
@@ -311,10 +325,21 @@ export class PlantLoop {
     if (this.dropErrUntil > t) for (let i = 0; i < n; i++) if (t + i >= this.dropErrFrom && t + i < this.dropErrUntil) errOn[i] = 0;
     if (this.nanUntil > t) for (let i = 0; i < n; i++) if (t + i >= this.nanFrom && t + i < this.nanUntil) errOn[i] = NaN;
     this.engine.process(ref, errOn, out, n);
-    this.secF.push(out, n);
-    if (fbF) fbF.push(out, n);
+    let driven = out;
+    if (this.speaker) {
+      this.speaker.process(out, this.speakerOut, n);
+      driven = this.speakerOut;
+    }
+    this.secF.push(driven, n);
+    if (fbF) fbF.push(driven, n);
     this.time = t + n;
   }
+}
+
+function delayed(x: Float64Array, d: number): Float64Array {
+  const out = new Float64Array(x.length + d);
+  out.set(x, d);
+  return out;
 }
 
 /** The true path followed by the engine's speaker high-pass (2nd-order Butterworth, no DC blocker). */
@@ -365,7 +390,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   const wErr = new Float32Array(wienerN);
 
   const rec: SimulationSignals | undefined = opts.record
-    ? { reference: new Float32Array(total), errorOn: new Float32Array(total), output: new Float32Array(total), errorOff: new Float32Array(total) }
+    ? { reference: new Float32Array(total), errorOn: new Float32Array(total), output: new Float32Array(total), errorOff: new Float32Array(total), referenceOff: new Float32Array(total) }
     : undefined;
 
   let peakOut = 0;
@@ -406,6 +431,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
         rec.errorOn[ti] = en;
         rec.output[ti] = out[i]!;
         rec.errorOff[ti] = eo;
+        rec.referenceOff[ti] = refNoFeedback[i]!;
       }
     }
     if (t + n > steadyStart) {
@@ -519,6 +545,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     events,
     notes,
     secondaryPathModel: model,
+    trueSecondaryPath: trueSec,
     timeline: { timeS: conv.timeS, attenuationDb: conv.attenuationOverTimeDb, offDbfs: toDbfs(conv.offPowerOverTime), onDbfs: toDbfs(conv.onPowerOverTime) },
     ...(rec ? { signals: rec } : {}),
   };

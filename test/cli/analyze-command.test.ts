@@ -161,12 +161,12 @@ describe('ancbench analyze', () => {
   describe('with bad input', () => {
     it('should ask for the channel of a multichannel file, naming the simulator\'s layout', async () => {
       expect(await main(['analyze', '--ref', signals(), '--ref-channel', '0', '--err', signals()])).toBe(2);
-      expect(err.join('')).toMatch(/--err ".*signals\.wav" has 4 channels: choose one with --err-channel N \(counted from 0\); the simulator's signals\.wav holds reference 0, error with control on 1, controller output 2, error with control off 3/);
+      expect(err.join('')).toMatch(/--err ".*signals\.wav" has 5 channels: choose one with --err-channel N \(counted from 0\); the simulator's signals\.wav holds reference 0, error with control on 1, controller output 2, error with control off 3/);
     });
 
     it('should refuse a channel the file does not have', async () => {
-      expect(await main(['analyze', '--ref', signals(), '--ref-channel', '4', '--err', signals(), '--err-channel', '3'])).toBe(2);
-      expect(err.join('')).toMatch(/--ref-channel must be from 0 to 3 \(".*signals\.wav" has 4 channels, counted from 0\), got 4/);
+      expect(await main(['analyze', '--ref', signals(), '--ref-channel', '5', '--err', signals(), '--err-channel', '3'])).toBe(2);
+      expect(err.join('')).toMatch(/--ref-channel must be from 0 to 4 \(".*signals\.wav" has 5 channels, counted from 0\), got 5/);
     });
 
     it('should refuse the same channel as reference and error', async () => {

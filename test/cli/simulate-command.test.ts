@@ -52,12 +52,16 @@ describe('ancbench simulate', () => {
       expect(j.attenuationDb).toBeGreaterThan(10);
     });
 
-    it('should write summary, CSV and a four-channel float WAV with --out', async () => {
+    it('should write summary, CSV, report and a float WAV whose first four channels keep their documented order', async () => {
       const o = join(dir, 'out');
       expect(await main(['simulate', scenarioFile(good), '--out', o])).toBe(0);
-      expect(readdirSync(o).sort()).toEqual(['attenuation.csv', 'signals.wav', 'summary.json']);
+      expect(readdirSync(o).sort()).toEqual(['attenuation.csv', 'report.html', 'signals.wav', 'summary.json']);
       const w = decodeWav(new Uint8Array(readFileSync(join(o, 'signals.wav'))));
-      expect(w.channels.length).toBe(4);
+      expect(w.channels.length).toBe(5);
+      // 0 reference, 1 error on, 2 output, 3 error off, 4 reference off: with no feedback path 4 equals 0,
+      // and 1 − 3 is what the controller added, so it is zero before the output reaches the error mic
+      expect(Array.from(w.channels[4]!.subarray(0, 100))).toEqual(Array.from(w.channels[0]!.subarray(0, 100)));
+      expect(w.channels[1]![0]).toBe(w.channels[3]![0]);
       expect(w.bitDepth).toBe('32f');
       expect(w.channels[0]!.length).toBe(8000);
       const csv = readFileSync(join(o, 'attenuation.csv'), 'utf8').split('\n');

@@ -134,7 +134,7 @@ describe('DivergenceGuard', () => {
     });
 
     it('should only note the limiter engaging when the gain reduction stays below the threshold', () => {
-      const run = drive({}, { durationS: 2, limiterGainReductionDb: (t) => (t < 0.5 ? 0 : 2) });
+      const run = drive({}, { durationS: 2, limiterGainReductionDb: (t) => (t < 0.5 ? 0 : 0.8) });
       expect(run.events.map((e) => e.cause)).toEqual(['limiter-engaged']);
       expect(run.guard.state).toBe('running');
     });

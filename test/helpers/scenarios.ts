@@ -43,12 +43,13 @@ export function noiseScenario(over: Json = {}): Scenario {
   }, over));
 }
 
-/** Deep merge of plain objects; arrays and the `controller` object are replaced whole. */
+/** Deep merge of plain objects; arrays, the `controller` object and room `paths` are replaced whole. */
 export function merge(base: Json, over: Json): Json {
   const out: Json = { ...base };
   for (const [k, v] of Object.entries(over)) {
     const b = out[k];
-    if (k !== 'controller' && v && typeof v === 'object' && !Array.isArray(v) && b && typeof b === 'object' && !Array.isArray(b)) out[k] = merge(b as Json, v as Json);
+    const replaceWhole = k === 'controller' || (k === 'paths' && v && typeof v === 'object' && 'room' in v);
+    if (!replaceWhole && v && typeof v === 'object' && !Array.isArray(v) && b && typeof b === 'object' && !Array.isArray(b)) out[k] = merge(b as Json, v as Json);
     else out[k] = v;
   }
   return out;

@@ -85,6 +85,29 @@ describe('simulate', () => {
     });
   });
 
+  describe('with image-source room paths', () => {
+    const room = {
+      room: { dimensionsM: [4, 3, 2.5], absorption: 0.6, source: [0.5, 1.5, 1], referenceMic: [0.9, 1.5, 1], errorMic: [3.5, 1.5, 1.2], speaker: [3.1, 1.2, 1.1], maxTimeS: 0.05 },
+      ioLatencyMs: 5,
+    };
+
+    it('should turn the room into explicit paths whose direct sound arrives at distance / c (Allen & Berkley, 1979)', () => {
+      const sc = toneScenario({ paths: room, durationS: 1 });
+      expect(sc.room).toBeDefined();
+      const d = Math.hypot(3.5 - 3.1, 1.5 - 1.2, 1.2 - 1.1); // speaker → error mic
+      const expectedMs = (d / 343) * 1000 + 5;
+      const r = pathResponse(sc.paths.secondary, sc.sampleRate);
+      let peak = 0;
+      for (let i = 1; i < r.taps.length; i++) if (Math.abs(r.taps[i]!) > Math.abs(r.taps[peak]!)) peak = i;
+      expect(Math.abs(((r.offset + peak) / sc.sampleRate) * 1000 - expectedMs)).toBeLessThan(1.5 / 8);
+      expect(simulate(sc).attenuationDb!).toBeGreaterThan(20);
+    });
+
+    it('should name ioLatencyMs when the room secondary path is shorter than a block', () => {
+      expect(() => toneScenario({ paths: { ...room, ioLatencyMs: 0 } })).toThrow(/paths\.ioLatencyMs \(the room's secondary path\)/);
+    });
+  });
+
   describe('with microphones beyond full scale', () => {
     it('should clip at ±1 and say so', () => {
       const r = simulate(toneScenario({ sources: [{ kind: 'tone', hz: 100, amplitude: 3 }], durationS: 0.5 }));
