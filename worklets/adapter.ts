@@ -47,6 +47,8 @@ export class Telemetry {
   private outPk = 0;
   private monitorPk = 0;
   private gr = 0;
+  private stepMax = 0;
+  private lastOut = 0;
 
   constructor(port: PortLike, options: TelemetryOptions, rate: number) {
     this.port = port;
@@ -73,6 +75,24 @@ export class Telemetry {
   addSimBlock(n: number, errOffPower: number, monitorPeak: number): void {
     this.errOffSum += errOffPower * n;
     if (monitorPeak > this.monitorPk) this.monitorPk = monitorPeak;
+  }
+
+  /**
+   * The loudspeaker samples of a block, in order: keeps the largest step between consecutive samples
+   * over the frame, across block edges (the click meter, `outMaxStep`).
+   */
+  addOutput(out: Float32Array, n: number): void {
+    let prev = this.lastOut;
+    let mx = this.stepMax;
+    for (let i = 0; i < n; i++) {
+      const v = out[i]!;
+      const d = v - prev;
+      const a = d < 0 ? -d : d;
+      if (a > mx) mx = a;
+      prev = v;
+    }
+    this.lastOut = prev;
+    this.stepMax = mx;
   }
 
   addGainReduction(db: number): void {
@@ -112,6 +132,9 @@ export class Telemetry {
     f[M.errOffPower] = this.errOffSum / c;
     f[M.monitorPeak] = this.monitorPk;
     f[M.adapting] = engine.controller.adapt ? 1 : 0;
+    f[M.outMaxStep] = this.stepMax;
+    f[M.switching] = engine.switching ? 1 : 0;
+    f[M.checkCeilingDbfs] = NaN;
   }
 
   publish(): void {
@@ -119,7 +142,7 @@ export class Telemetry {
     else this.port.postMessage(this.meterMsg);
     this.count = 0;
     this.refSum = this.errSum = this.outSum = this.errOffSum = 0;
-    this.refPk = this.errPk = this.outPk = this.monitorPk = this.gr = 0;
+    this.refPk = this.errPk = this.outPk = this.monitorPk = this.gr = this.stepMax = 0;
   }
 
   /**

@@ -4,6 +4,7 @@
  * controller-specific meters (tone follower), and the output stage of the identification probe.
  */
 import type { Engine } from '../src/engine/engine.ts';
+import { createController, type ControllerConfig } from '../src/engine/controller-factory.ts';
 import { createEventBatch, VALUES_PER_EVENT, type EventBatch } from '../src/engine/events.ts';
 import { parseControlMessage, harmonicIndex, M, MAX_PANEL_HARMONICS, type ControlMessage, type PortLike } from '../src/engine/messages.ts';
 import { createHarmonicReadout, type TonalController } from '../src/dsp/tonal-controller.ts';
@@ -28,8 +29,25 @@ function tonal(engine: Engine): TonalController | null {
  * boundary; tone-follower settings are applied by the controller at its next block). Runs between
  * render quanta, on the audio thread. Returns false for messages the processor handles itself.
  */
-export function applyEngineMessage(engine: Engine, msg: ControlMessage, port: PortLike): boolean {
+export function applyEngineMessage(engine: Engine, msg: ControlMessage, port: PortLike, tel: Telemetry): boolean {
   switch (msg.type) {
+    case 'switch-controller': {
+      const incoming = engine.standby;
+      if (!incoming) {
+        port.postMessage({ type: 'error', message: '"switch-controller" needs a standby controller (none was configured)' });
+        return true;
+      }
+      if (engine.switching) {
+        port.postMessage({ type: 'error', message: 'a controller crossfade is still under way: switch again when it has ended' });
+        return true;
+      }
+      // queued: the engine swaps at the next block boundary and crossfades over crossfadeMs
+      engine.switchController(msg.crossfadeMs);
+      const toTonal = incoming.kind === 'tonal';
+      tel.event(engine.meters.timeS, 'controller-switch', 'none', msg.crossfadeMs, toTonal ? 1 : 0, NaN, false);
+      port.postMessage({ type: 'switched', toTonal, crossfadeMs: msg.crossfadeMs });
+      return true;
+    }
     case 'set-step-size':
       engine.setStepSize(msg.value);
       return true;
@@ -81,14 +99,18 @@ export class EngineEventState {
   readonly harmonic = createHarmonicReadout();
 }
 
-/** Forward the engine's own events (guard, limiter, non-finite output) and note the block's gain reduction. */
-export function relayEngineEvents(engine: Engine, tel: Telemetry, state: EngineEventState): void {
+/**
+ * Forward the engine's own events (guard, limiter, non-finite output) and note the block's gain
+ * reduction. `offsetS` moves the engine's times onto the processor's clock (time the processor
+ * played probes or tests without the engine).
+ */
+export function relayEngineEvents(engine: Engine, tel: Telemetry, state: EngineEventState, offsetS = 0): void {
   tel.addGainReduction(engine.meters.gainReductionDb);
   const ring = engine.events;
   while (ring.size > 0) {
     const b = state.batch;
     const n = ring.drainInto(b);
-    for (let i = 0; i < n; i++) tel.forward(b.timeS[i]!, b.cause[i]!, b.action[i]!, b.values, i * VALUES_PER_EVENT, VALUES_PER_EVENT);
+    for (let i = 0; i < n; i++) tel.forward(b.timeS[i]! + offsetS, b.cause[i]!, b.action[i]!, b.values, i * VALUES_PER_EVENT, VALUES_PER_EVENT);
   }
 }
 
@@ -116,17 +138,23 @@ export function fillEngineExtras(engine: Engine, frame: Float64Array, state: Eng
 }
 
 /**
- * The output stage of the identification probe: the engine's own limiter (same ceiling, same
- * latency, so the measured path includes it), called while the engine is idle and not processing.
- * The engine's high-pass is not applied to the probe (it is private to the engine): below about
- * twice its corner the model misses the high-pass's phase lead. Returns the block's peak.
+ * Play a probe or test signal (identification sweep, calibration tone) through the engine's output
+ * stage (Engine.processProbe: high-pass, ramp, limiter), so the identified path includes the
+ * high-pass and the limiter's latency and no probe sample can pass the ceiling. Returns the block's
+ * output sample peak.
  */
-export function probeOutputStage(engine: Engine, x: Float32Array, out: Float32Array, n: number): number {
-  engine.limiter.process(x, out, n);
-  let pk = 0;
-  for (let i = 0; i < n; i++) {
-    const a = out[i]! < 0 ? -out[i]! : out[i]!;
-    if (a > pk) pk = a;
-  }
-  return pk;
+export function playProbe(engine: Engine, x: Float32Array, out: Float32Array, n: number): number {
+  engine.processProbe(x, out, n);
+  return engine.meters.outPeak;
+}
+
+/**
+ * Give an engine a standby controller after construction (the simulated plant's engine is built by
+ * PlantLoop, which takes no standby): built on the same model, frozen while on standby, as the
+ * engine's own constructor does for `standbyController`.
+ */
+export function attachStandby(engine: Engine, config: ControllerConfig, model: Float32Array): void {
+  const c = createController(config, model, engine.maxBlockSize, engine.sampleRate);
+  c.adapt = false;
+  engine.standby = c;
 }

@@ -3,7 +3,7 @@ import { OutputLimiter } from '../src/dsp/limiter.ts';
 import type { Scenario } from '../src/plant/scenario.ts';
 import { M, MODE_CODES, checkTelemetryOptions, type SimProcessorOptions, type PortLike } from '../src/engine/messages.ts';
 import { ChunkSender, Telemetry, levels } from './adapter.ts';
-import { receive, applyEngineMessage, copyWeights, fillEngineExtras, relayEngineEvents, EngineEventState } from './engine-events.ts';
+import { receive, applyEngineMessage, attachStandby, copyWeights, fillEngineExtras, relayEngineEvents, EngineEventState } from './engine-events.ts';
 
 /**
  * Simulated-plant processor: no input; runs the scenario's closed loop (sources, paths, microphones,
@@ -18,6 +18,9 @@ import { receive, applyEngineMessage, copyWeights, fillEngineExtras, relayEngine
  * Listening path: error-mic signal (control on, or the control-off twin for comparison) × monitor
  * gain, then its own output limiter (zero-latency mode: smooth gain reduction, then a hard ceiling at
  * the monitor cap; non-finite samples become silence). Like every output path, it ends in a limiter.
+ *
+ * Controller switch: with `standbyController`, the engine keeps a second controller on the scenario's
+ * model and `switch-controller` crossfades to it (the plant keeps running).
  *
  * Bundle rules: imports first, no exports, no top-level side effects besides registerProcessor.
  */
@@ -46,6 +49,14 @@ class SimProcessor extends AudioWorkletProcessor {
     if (!(o.monitorCeilingDbfs >= -60 && o.monitorCeilingDbfs <= 0)) throw new RangeError(`monitorCeilingDbfs must be from −60 to 0 dBFS, got ${String(o.monitorCeilingDbfs)}`);
     const telemetry = checkTelemetryOptions(o.telemetry);
     this.loop = new PlantLoop(sc, { startMode: o.startMode ?? 'idle' });
+    let standbyProblem = '';
+    if (o.standbyController) {
+      try {
+        attachStandby(this.loop.engine, o.standbyController, this.loop.secondaryPathModel);
+      } catch (e) {
+        standbyProblem = `standby controller: ${(e as Error).message}`;
+      }
+    }
     this.mon = new Float32Array(sc.blockSize);
     this.monOut = new Float32Array(sc.blockSize);
     this.monitorLimiter = new OutputLimiter({ sampleRate, maxBlockSize: sc.blockSize, ceilingDbfs: o.monitorCeilingDbfs });
@@ -67,13 +78,15 @@ class SimProcessor extends AudioWorkletProcessor {
       sampleRate,
       source: 'scenario',
     });
+    // after 'ready', so the page is listening: the plant runs, switching rebuilds instead
+    if (standbyProblem) this.port.postMessage({ type: 'error', message: standbyProblem });
   }
 
   private onMessage(data: unknown): void {
     const msg = receive(this.port, data, sampleRate);
     if (msg === null) return;
     const engine = this.loop.engine;
-    if (applyEngineMessage(engine, msg, this.port)) return;
+    if (applyEngineMessage(engine, msg, this.port, this.telemetry)) return;
     switch (msg.type) {
       case 'set-mode':
         if (this.state === 'run') engine.setMode(msg.mode);
@@ -92,6 +105,13 @@ class SimProcessor extends AudioWorkletProcessor {
       case 'identify':
       case 'cancel-identify':
         this.port.postMessage({ type: 'error', message: `"${msg.type}" is for the live processor; the simulated plant takes its model from the scenario` });
+        break;
+      case 'calibration-tone':
+      case 'stop-tone':
+      case 'record':
+      case 'level-check':
+      case 'cancel-level-check':
+        this.port.postMessage({ type: 'error', message: `"${msg.type}" needs live microphones and a loudspeaker: switch to live mode` });
         break;
       case 'shutdown':
         engine.setMode('muted');
@@ -122,6 +142,7 @@ class SimProcessor extends AudioWorkletProcessor {
       for (let i = 0; i < m; i++) out0[off + i] = this.monOut[i]!;
       const em = engine.meters;
       tel.addBlock(m, em.refPower, em.errPower, em.outPower, em.refPeak, em.errPeak, em.outPeak);
+      tel.addOutput(loop.out, m);
       levels(loop.errOff, m, lv);
       tel.addSimBlock(m, lv[0]!, monPk);
       relayEngineEvents(engine, tel, this.evState);

@@ -81,6 +81,16 @@ export const METER_FIELDS = [
   'probeProgress',
   /** Input samples replaced by silence because they were not finite (cumulative). */
   'nonFiniteIn',
+  /**
+   * Largest |out[i] − out[i−1]| between consecutive output samples over the frame (block edges
+   * included): a click or a step in the loudspeaker signal shows here as a jump far above the
+   * signal's own slope (for a sine of peak A at f, A·2π·f/fs).
+   */
+  'outMaxStep',
+  /** 1 while the engine crossfades from one controller to the other. */
+  'switching',
+  /** Level-cap check: output ceiling it enforces, dBFS (NaN when no check runs). */
+  'checkCeilingDbfs',
 ] as const;
 
 /** Tone follower, per harmonic k = 1 … MAX_PANEL_HARMONICS, after the fields above (NaN when absent). */
@@ -107,7 +117,8 @@ export function harmonicIndex(k: number, j: number): number {
   return METER_FIELDS.length + (k - 1) * HARMONIC_FIELDS.length + j;
 }
 
-export const MODE_CODES = ['idle', 'control', 'muted', 'identify'] as const;
+/** Modes the panel shows: the engine's, and what the live processor plays instead of control. */
+export const MODE_CODES = ['idle', 'control', 'muted', 'identify', 'tone', 'level-check'] as const;
 export type PanelMode = (typeof MODE_CODES)[number];
 
 /** Read a meter frame into a plain object (allocates: for tests and logs, not for the display loop). */
@@ -139,6 +150,12 @@ export const HOST_EVENT_CAUSES = {
   underrun: ['events', 'durationMs'],
   /** The identification probe finished. values: samples recorded, peakDbfs of the probe. */
   'probe-done': ['samples', 'peakDbfs'],
+  /** The engine handed control to its standby controller. values: crossfadeMs, toTonal (1 tone follower, 0 broadband). */
+  'controller-switch': ['crossfadeMs', 'toTonal'],
+  /** A calibration tone started (or stopped: dbfs = measured output level). values: hz, dbfs. */
+  'calibration-tone': ['hz', 'dbfs'],
+  /** A level-cap check ended. values: passed (1/0), maxSamplePeakDbfs, ceilingDbfs. */
+  'level-check': ['passed', 'maxSamplePeakDbfs', 'ceilingDbfs'],
 
 } as const satisfies Record<string, readonly string[]>;
 
@@ -170,6 +187,9 @@ export const EVENT_TEXT: Record<EventCause, string> = {
   'device-change': 'audio devices changed',
   underrun: 'audio output underran (overload)',
   'probe-done': 'identification probe finished',
+  'controller-switch': 'controller switched with a crossfade',
+  'calibration-tone': 'calibration tone',
+  'level-check': 'level-cap check finished',
 };
 
 export const EVENT_RECORD_LENGTH = 3 + VALUES_PER_EVENT;
@@ -367,6 +387,11 @@ export interface TelemetryOptions {
 
 export interface LiveProcessorOptions {
   controller: ControllerConfig;
+  /**
+   * A second controller (built on the same model) kept on standby for `switch-controller`: the
+   * engine crossfades to it without a restart (Engine.switchController).
+   */
+  standbyController?: ControllerConfig;
   secondaryPathModel: Float32Array;
   ceilingDbfs: number;
   rampMs?: number;
@@ -385,6 +410,8 @@ export interface SimProcessorOptions {
   /** Peak cap of the listening signal, dBFS (−60 … 0). */
   monitorCeilingDbfs: number;
   startMode?: EngineMode;
+  /** A standby controller for `switch-controller`, built on the scenario's model. */
+  standbyController?: ControllerConfig;
   telemetry: TelemetryOptions;
 }
 
@@ -399,6 +426,62 @@ export interface ProbeSpec {
   tailS: number;
 }
 
+/** Calibration tones: level range (dBFS, AES17), frequency range (Hz, up to 0.45·fs), longest tone (s). */
+export const TONE_DBFS_RANGE: readonly [number, number] = [-80, -6];
+export const TONE_MIN_HZ = 20;
+export const TONE_MAX_S = 120;
+/** Longest microphone recording for a calibration, s. */
+export const RECORD_MAX_S = 10;
+/** Controller crossfade limits, ms (Engine.switchController takes 0 … 10000). */
+export const CROSSFADE_RANGE_MS: readonly [number, number] = [0, 10000];
+
+/** One output-calibration reading (src/analysis/calibration.ts OutputCalibrationPoint). */
+export interface CalibrationReading {
+  hz: number;
+  dbfs: number;
+  measuredDbSpl: number;
+}
+
+/** A microphone calibration (src/analysis/calibration.ts MicCalibration). */
+export interface MicCalibrationData {
+  hz: number;
+  sensitivityDbSpl: number;
+  validFromHz: number;
+  validToHz: number;
+}
+
+/**
+ * A live level-cap check (src/plant/level-cap-check.ts): the user's dBFS cap, and optionally an
+ * output calibration with a peak SPL cap (the stricter cap applies) and an error-mic calibration.
+ * The signal settings are checked by the check itself (its messages name each field).
+ */
+export interface LevelCheckRequest {
+  ceilingDbfs: number;
+  outputCalibration?: CalibrationReading[];
+  peakCeilingDbSpl?: number;
+  micCalibration?: MicCalibrationData;
+  signal: {
+    startDbfs?: number;
+    overDb?: number;
+    rampS?: number;
+    holdS?: number;
+    gapS?: number;
+    toneHz?: number;
+    kinds?: ('tone' | 'noise' | 'adversarial')[];
+    seed?: number;
+  };
+}
+
+/** What the live processor itself saw of the samples it handed to the audio output during a check. */
+export interface HandedToOutput {
+  samples: number;
+  /** The ceiling the check enforced, dBFS. */
+  ceilingDbfs: number;
+  maxSamplePeakDbfs: number;
+  samplesOverCeiling: number;
+  nonFinite: number;
+}
+
 export type ControlMessage =
   | { type: 'set-mode'; mode: EngineMode }
   | { type: 'set-step-size'; value: number }
@@ -406,7 +489,13 @@ export type ControlMessage =
   | { type: 'set-ceiling'; dbfs: number }
   | { type: 'set-adaptation'; on: boolean }
   | { type: 'reset-weights' }
-  | { type: 'configure'; controller: ControllerConfig; secondaryPathModel: Float32Array; startMode?: EngineMode }
+  | { type: 'configure'; controller: ControllerConfig; secondaryPathModel: Float32Array; startMode?: EngineMode; standbyController?: ControllerConfig }
+  | { type: 'switch-controller'; crossfadeMs: number }
+  | { type: 'calibration-tone'; hz: number; dbfs: number }
+  | { type: 'stop-tone' }
+  | { type: 'record'; seconds: number }
+  | { type: 'level-check'; request: LevelCheckRequest }
+  | { type: 'cancel-level-check' }
   | { type: 'identify'; probe: ProbeSpec }
   | { type: 'cancel-identify' }
   | { type: 'set-monitor'; gainDb: number; source: 'on' | 'off' }
@@ -426,6 +515,13 @@ export type WorkletMessage =
   | { type: 'model'; taps: Float32Array; truePath: Float32Array | null; sampleRate: number; source: 'scenario' | 'identified' }
   | { type: 'configured'; modelTaps: number }
   | { type: 'error'; message: string }
+  | { type: 'switched'; toTonal: boolean; crossfadeMs: number }
+  | { type: 'tone-started'; hz: number; dbfs: number }
+  /** measuredDbfs: AES17 RMS level of the samples handed to the output over the tone's steady part. */
+  | { type: 'tone-stopped'; hz: number; dbfs: number; measuredDbfs: number; samples: number }
+  | { type: 'recording'; err: Float32Array; ref: Float32Array; sampleRate: number }
+  /** result: a LevelCapResult (src/plant/level-cap-check.ts), typed by the page. */
+  | { type: 'level-check-result'; result: unknown; output: HandedToOutput }
   | { type: 'stopped' };
 
 /** A chunk of microphone audio for the analysis worker (sent on a dedicated port, never to comlink). */
@@ -486,6 +582,8 @@ export function parseControlMessage(data: unknown, sampleRate: number): ControlM
       return { type: 'set-adaptation', on: m.on };
     case 'reset-weights':
     case 'cancel-identify':
+    case 'stop-tone':
+    case 'cancel-level-check':
     case 'request-weights':
     case 'acknowledge':
     case 'shutdown':
@@ -509,13 +607,28 @@ export function parseControlMessage(data: unknown, sampleRate: number): ControlM
       if (typeof m.controller !== 'object' || m.controller === null) throw new RangeError('controller must be an object');
       const startMode = m.startMode === undefined ? undefined : (m.startMode as EngineMode);
       if (startMode !== undefined && !MODES.includes(startMode)) throw new RangeError(`startMode must be one of ${MODES.join(', ')}, got ${String(startMode)}`);
+      const sb = m.standbyController;
+      if (sb !== undefined && (typeof sb !== 'object' || sb === null)) throw new RangeError(`standbyController must be an object when given, got ${String(sb)}`);
       return {
         type: 'configure',
         controller: m.controller as ControllerConfig,
         secondaryPathModel: m.secondaryPathModel,
         ...(startMode ? { startMode } : {}),
+        ...(sb ? { standbyController: sb as ControllerConfig } : {}),
       };
     }
+    case 'switch-controller':
+      return { type: 'switch-controller', crossfadeMs: num(m, 'crossfadeMs', CROSSFADE_RANGE_MS[0], CROSSFADE_RANGE_MS[1]) };
+    case 'calibration-tone':
+      return {
+        type: 'calibration-tone',
+        hz: num(m, 'hz', TONE_MIN_HZ, 0.45 * sampleRate),
+        dbfs: num(m, 'dbfs', TONE_DBFS_RANGE[0], TONE_DBFS_RANGE[1]),
+      };
+    case 'record':
+      return { type: 'record', seconds: num(m, 'seconds', 0.1, RECORD_MAX_S) };
+    case 'level-check':
+      return { type: 'level-check', request: checkLevelRequest(m.request) };
     case 'identify':
       return { type: 'identify', probe: checkProbe(m.probe, sampleRate) };
     case 'set-monitor':
@@ -527,6 +640,35 @@ export function parseControlMessage(data: unknown, sampleRate: number): ControlM
     default:
       throw new RangeError(`unknown message type "${String(m.type)}"`);
   }
+}
+
+/** Shallow check of a level-check request (ranges of the signal settings: the check's own messages). */
+export function checkLevelRequest(r: unknown): LevelCheckRequest {
+  if (typeof r !== 'object' || r === null) throw new RangeError(`request must be an object, got ${String(r)}`);
+  const o = r as Record<string, unknown>;
+  const ceilingDbfs = num(o, 'ceilingDbfs', -120, 0, 'request.');
+  if (typeof o.signal !== 'object' || o.signal === null) throw new RangeError(`request.signal must be an object, got ${String(o.signal)}`);
+  const cal = o.outputCalibration;
+  if (cal !== undefined && !Array.isArray(cal)) throw new RangeError(`request.outputCalibration must be a list of readings {hz, dbfs, measuredDbSpl}, got ${String(cal)}`);
+  if ((cal === undefined) !== (o.peakCeilingDbSpl === undefined)) {
+    throw new RangeError('request.outputCalibration and request.peakCeilingDbSpl go together: give both or neither');
+  }
+  const peak = o.peakCeilingDbSpl === undefined ? undefined : num(o, 'peakCeilingDbSpl', -50, 200, 'request.');
+  const mic = o.micCalibration;
+  if (mic !== undefined && (typeof mic !== 'object' || mic === null)) throw new RangeError(`request.micCalibration must be an object, got ${String(mic)}`);
+  if (mic) {
+    const mo = mic as Record<string, unknown>;
+    num(mo, 'hz', 1e-6, 1e6, 'request.micCalibration.');
+    num(mo, 'sensitivityDbSpl', -100, 300, 'request.micCalibration.');
+    num(mo, 'validFromHz', 1e-6, 1e6, 'request.micCalibration.');
+    num(mo, 'validToHz', 1e-6, 1e6, 'request.micCalibration.');
+  }
+  return {
+    ceilingDbfs,
+    signal: o.signal as LevelCheckRequest['signal'],
+    ...(cal ? { outputCalibration: cal as CalibrationReading[], peakCeilingDbSpl: peak! } : {}),
+    ...(mic ? { micCalibration: mic as MicCalibrationData } : {}),
+  };
 }
 
 export function checkTelemetryOptions(t: unknown): TelemetryOptions {

@@ -83,6 +83,39 @@ describe('Telemetry', () => {
     expect(port.posted.length).toBe(0);
   });
 
+  it('should report the largest step between consecutive output samples, across block edges', () => {
+    const port = new FakePort();
+    const t = new Telemetry(port, { displayRateHz: 30, chunkSamples: 0 }, 48000);
+    const engine = new Engine({ sampleRate: 48000, maxBlockSize: 128, controller: { algorithm: 'fxnlms', taps: 4, stepSize: 0.1 }, secondaryPathModel: Float32Array.of(1) });
+    // a sine of peak A at f steps by at most A·2·sin(π·f/fs) between samples (chord of the unit circle)
+    const fs = 48000;
+    const A = 0.5;
+    const f = 120;
+    const n = 128;
+    const block = new Float32Array(n);
+    for (let b = 0; b < 10; b++) {
+      for (let i = 0; i < n; i++) block[i] = A * Math.sin((2 * Math.PI * f * (b * n + i)) / fs);
+      t.addOutput(block, n);
+    }
+    t.fillFromEngine(engine);
+    const bound = 2 * A * Math.sin((Math.PI * f) / fs);
+    expect(t.frame[M.outMaxStep]!).toBeLessThanOrEqual(bound + 1e-7);
+    expect(t.frame[M.outMaxStep]!).toBeGreaterThan(0.99 * bound);
+    t.publish();
+    // a jump at the edge between two blocks: the last sample of one and the first of the next
+    const a = Float32Array.of(0.1, 0.2, 0.3);
+    const c = Float32Array.of(-0.4, -0.4, -0.4);
+    t.addOutput(a, 3);
+    t.addOutput(c, 3);
+    t.fillFromEngine(engine);
+    expect(t.frame[M.outMaxStep]).toBeCloseTo(0.7, 6);
+    // each frame starts afresh (publish clears it), but remembers the last sample for the next edge
+    t.publish();
+    t.addOutput(Float32Array.of(-0.4, -0.35), 2);
+    t.fillFromEngine(engine);
+    expect(t.frame[M.outMaxStep]).toBeCloseTo(0.05, 6);
+  });
+
   it('should hold back repeats of a cause within a second, per slot', () => {
     const port = new FakePort();
     const t = new Telemetry(port, { displayRateHz: 30, chunkSamples: 0 }, 48000);

@@ -102,4 +102,31 @@ describe('parseControlMessage', () => {
     expect(() => parseControlMessage({ type: 'warp' }, 48000)).toThrow('unknown message type "warp"');
     expect(() => parseControlMessage({ type: 'set-harmonics', harmonics: 2.5 }, 48000)).toThrow(/whole number/);
   });
+
+  describe('with the calibration, level-check and controller-switch messages', () => {
+    it('should accept them within range and refuse them outside, naming the field', () => {
+      expect(parseControlMessage({ type: 'switch-controller', crossfadeMs: 200 }, 48000)).toEqual({ type: 'switch-controller', crossfadeMs: 200 });
+      expect(() => parseControlMessage({ type: 'switch-controller', crossfadeMs: 20000 }, 48000)).toThrow('crossfadeMs must be a number from 0 to 10000, got 20000');
+      expect(parseControlMessage({ type: 'calibration-tone', hz: 1000, dbfs: -30 }, 48000)).toEqual({ type: 'calibration-tone', hz: 1000, dbfs: -30 });
+      // the tone frequency stays below 0.45·fs (21.6 kHz at 48 kHz), its level at most −6 dBFS
+      expect(() => parseControlMessage({ type: 'calibration-tone', hz: 22000, dbfs: -30 }, 48000)).toThrow('hz must be a number from 20 to 21600, got 22000');
+      expect(() => parseControlMessage({ type: 'calibration-tone', hz: 1000, dbfs: 0 }, 48000)).toThrow('dbfs must be a number from -80 to -6, got 0');
+      expect(() => parseControlMessage({ type: 'record', seconds: 60 }, 48000)).toThrow('seconds must be a number from 0.1 to 10, got 60');
+      expect(parseControlMessage({ type: 'stop-tone' }, 48000)).toEqual({ type: 'stop-tone' });
+      const ok = parseControlMessage({ type: 'level-check', request: { ceilingDbfs: -20, signal: { rampS: 1 } } }, 48000);
+      expect(ok).toEqual({ type: 'level-check', request: { ceilingDbfs: -20, signal: { rampS: 1 } } });
+      expect(() => parseControlMessage({ type: 'level-check', request: { ceilingDbfs: -20 } }, 48000)).toThrow('request.signal must be an object, got undefined');
+      expect(() => parseControlMessage({ type: 'level-check', request: { ceilingDbfs: 2, signal: {} } }, 48000)).toThrow('request.ceilingDbfs must be a number from -120 to 0, got 2');
+      // an SPL cap without the calibration it needs (or the reverse) is refused
+      const points = [{ hz: 1000, dbfs: -30, measuredDbSpl: 76 }];
+      expect(() => parseControlMessage({ type: 'level-check', request: { ceilingDbfs: -20, signal: {}, outputCalibration: points } }, 48000)).toThrow(/go together/);
+      expect(() => parseControlMessage({ type: 'level-check', request: { ceilingDbfs: -20, signal: {}, peakCeilingDbSpl: 85 } }, 48000)).toThrow(/go together/);
+      expect(() =>
+        parseControlMessage({ type: 'level-check', request: { ceilingDbfs: -20, signal: {}, micCalibration: { hz: 1000, sensitivityDbSpl: 'x', validFromHz: 1000, validToHz: 1000 } } }, 48000),
+      ).toThrow('request.micCalibration.sensitivityDbSpl must be a number from -100 to 300, got x');
+      expect(() => parseControlMessage({ type: 'configure', controller: { algorithm: 'fxnlms', taps: 8, stepSize: 0.1 }, secondaryPathModel: Float32Array.of(1), standbyController: 5 }, 48000)).toThrow(
+        'standbyController must be an object when given, got 5',
+      );
+    });
+  });
 });
