@@ -4,7 +4,11 @@
  * Lit renders the structure and re-renders only on state changes (start, stop, settings, events).
  *
  * Opens in simulated-plant mode on the first scenario given (the page passes the demo scenarios);
- * the switch at the top moves to live microphones, behind the hearing-safety cautions.
+ * the switch at the top moves to live microphones, behind the hearing-safety cautions. Live, two more
+ * cards appear: calibration (dB SPL from the user's own readings, per output device and microphone,
+ * kept in localStorage; an SPL cap, the stricter cap applies) and the level-cap check with its
+ * saved report. Switching between broadband FxLMS and the tone follower crossfades to the engine's
+ * standby controller instead of restarting.
  */
 import '../web/zod-jitless.ts';
 import { LitElement, css, html } from 'lit';
@@ -16,14 +20,22 @@ import { AncbMeter } from './meter-bar.ts';
 import { AncbPlot, type PlotConfig } from './plot.ts';
 import { AncbEvents } from './events-list.ts';
 import { AncbCautions } from './cautions.ts';
-import './controls.ts';
+import { defaultStandby } from './controls.ts';
 import './sim-source.ts';
 import './live-setup.ts';
+import './calibration.ts';
+import type { AncbLevelCheck } from './level-check.ts';
+import { checkDurationS } from './level-check.ts';
+import { createOutputCalibration, micCalibrationFromRecording, SINE_CREST_DB, type OutputCalibration } from '../analysis/calibration.ts';
+import { effectiveCeiling, type EffectiveCeiling } from '../plant/level-cap-check.ts';
+import { browserCalibrationStore, deviceKey, type StoredMicCalibration, type StoredOutputCalibration } from '../io/calibration-store.ts';
+import { buildLevelCheckReport, levelCheckHtml, reportJson, type LiveLevelCheckReport } from '../web/level-check-report.ts';
+import type { LevelCheckRequest } from '../engine/messages.ts';
 import type { AncbTones } from './tones.ts';
 import './tones.ts';
 import type { ScenarioEntry } from './sim-source.ts';
 import type { AncbLiveSetup } from './live-setup.ts';
-import { Session, defaultProbe, type ControlSettings, type ModelInfo } from '../web/session.ts';
+import { Session, SWITCH_CROSSFADE_MS, defaultProbe, type ControlSettings, type ModelInfo } from '../web/session.ts';
 import { analysis } from '../web/analysis-client.ts';
 import { engineControllerConfig } from '../plant/simulate.ts';
 import { listDevices, loadChoice, reconcileChoice, requestMicrophonePermission, saveChoice, type DeviceChoice, type DeviceLists } from '../web/devices.ts';
@@ -74,7 +86,19 @@ const TONE: PlotConfig = {
 /** Output cap applied when switching to live microphones, dBFS (start low). */
 export const LIVE_START_CAP_DBFS = -20;
 
-export const DEFAULT_SETTINGS: ControlSettings = { controller: { algorithm: 'fxnlms', taps: 64, stepSize: 0.002 }, ceilingDbfs: -6, adaptation: true };
+export const DEFAULT_SETTINGS: ControlSettings = {
+  controller: { algorithm: 'fxnlms', taps: 64, stepSize: 0.002 },
+  ceilingDbfs: -6,
+  adaptation: true,
+  standby: defaultStandby({ algorithm: 'fxnlms', taps: 64, stepSize: 0.002 }),
+};
+
+/** The most sensitive calibrated frequency: its RMS sensitivity bounds the SPL of any output in the calibrated range. */
+function maxSensitivity(cal: OutputCalibration): { db: number; hz: number } {
+  let best = cal.points[0]!;
+  for (const p of cal.points) if (p.sensitivityDbSpl > best.sensitivityDbSpl) best = p;
+  return { db: best.sensitivityDbSpl, hz: best.hz };
+}
 
 export class AncbApp extends LitElement {
   static override properties = {
@@ -100,6 +124,13 @@ export class AncbApp extends LitElement {
     measured: { state: true },
     toneSummary: { state: true },
     guardState: { state: true },
+    outputCal: { state: true },
+    micCal: { state: true },
+    tone: { state: true },
+    calBusy: { state: true },
+    levelRunning: { state: true },
+    levelReport: { state: true },
+    levelLinks: { state: true },
   };
 
   static override styles = [
@@ -260,6 +291,12 @@ export class AncbApp extends LitElement {
         margin-top: 1rem;
         font-size: 0.85rem;
       }
+      .tools {
+        display: grid;
+        grid-template-columns: repeat(auto-fit, minmax(30rem, 1fr));
+        gap: 0.9rem;
+        align-items: start;
+      }
     `,
   ];
 
@@ -286,6 +323,17 @@ export class AncbApp extends LitElement {
   declare modelSource: ModelInfo['source'];
   declare toneSummary: string;
   declare guardState: number;
+  /** Calibrations of the chosen output device and error microphone (live), or null. */
+  declare outputCal: StoredOutputCalibration | null;
+  declare micCal: StoredMicCalibration | null;
+  /** The calibration tone now playing. */
+  declare tone: { hz: number; dbfs: number } | null;
+  declare calBusy: '' | 'tone' | 'mic';
+  declare levelRunning: boolean;
+  declare levelReport: LiveLevelCheckReport | null;
+  declare levelLinks: { json: string; html: string } | null;
+  readonly calibrations = browserCalibrationStore();
+  private toneSeen = false;
 
   readonly display = new DisplayState();
   readonly session: Session;
@@ -319,6 +367,14 @@ export class AncbApp extends LitElement {
     this.modelSource = 'none';
     this.toneSummary = '';
     this.guardState = 0;
+    this.outputCal = null;
+    this.micCal = null;
+    this.tone = null;
+    this.calBusy = '';
+    this.levelRunning = false;
+    this.levelReport = null;
+    this.levelLinks = null;
+    this.loadCalibrations();
     applyTheme(this.theme);
     this.session = new Session({
       frame: (f) => this.display.push(f),
@@ -342,11 +398,189 @@ export class AncbApp extends LitElement {
   }
 
   private settingsFromScenario(e: ScenarioEntry): ControlSettings {
+    const controller = engineControllerConfig(e.scenario);
     return {
-      controller: engineControllerConfig(e.scenario),
+      controller,
       ceilingDbfs: e.scenario.outputCeilingDbfs ?? DEFAULT_SETTINGS.ceilingDbfs,
       adaptation: true,
+      standby: defaultStandby(controller),
     };
+  }
+
+  // ---------------------------------------------------------------- calibration and caps
+
+  private get outputKey(): string {
+    return deviceKey(this.choice.outputDeviceId);
+  }
+
+  private get outputLabel(): string {
+    const id = this.choice.outputDeviceId;
+    return (id && this.devices?.outputs.find((d) => d.deviceId === id)?.label) || 'system default output';
+  }
+
+  /** The error mic's device and channel as the store keys it. */
+  private get micKey(): string {
+    const c = this.choice;
+    return deviceKey(c.layout === 'stereo' ? c.refDeviceId : c.errDeviceId, c.errChannel);
+  }
+
+  private get micLabel(): string {
+    const c = this.choice;
+    const id = c.layout === 'stereo' ? c.refDeviceId : c.errDeviceId;
+    const name = (id && this.devices?.inputs.find((d) => d.deviceId === id)?.label) || 'system default input';
+    return `${name}, channel ${c.errChannel + 1}`;
+  }
+
+  private loadCalibrations(): void {
+    this.outputCal = this.calibrations.output(this.outputKey);
+    this.micCal = this.calibrations.mic(this.micKey);
+    if (this.calibrations.dropped.length) this.warnings = [...this.warnings, ...this.calibrations.dropped];
+  }
+
+  private calCache: { from: StoredOutputCalibration | null; cal: OutputCalibration | null } = { from: null, cal: null };
+
+  /** The output calibration in use: live only (the simulated plant has no loudspeaker to calibrate). */
+  private get activeOutputCal(): OutputCalibration | null {
+    if (this.source !== 'live' || !this.outputCal) return null;
+    // built once per stored entry (the display loop asks every frame)
+    if (this.calCache.from !== this.outputCal) this.calCache = { from: this.outputCal, cal: createOutputCalibration(this.outputCal.points) };
+    return this.calCache.cal;
+  }
+
+  /** The cap that applies: the dBFS cap, or the stricter of it and the SPL cap through the calibration. */
+  private get effective(): EffectiveCeiling {
+    const cal = this.activeOutputCal;
+    const peak = this.outputCal?.peakCeilingDbSpl ?? null;
+    return cal && peak !== null ? effectiveCeiling(this.settings.ceilingDbfs, cal, peak) : effectiveCeiling(this.settings.ceilingDbfs);
+  }
+
+  /** What the engine runs with: the panel's settings with the cap that applies. */
+  private engineSettings(s: ControlSettings = this.settings): ControlSettings {
+    if (this.source !== 'live') return s;
+    const cal = this.activeOutputCal;
+    const peak = this.outputCal?.peakCeilingDbSpl ?? null;
+    const eff = cal && peak !== null ? effectiveCeiling(s.ceilingDbfs, cal, peak) : null;
+    return eff ? { ...s, ceilingDbfs: eff.ceilingDbfs } : s;
+  }
+
+  private get capNote(): string {
+    const e = this.effective;
+    if (!e.spl) return '';
+    return e.limitedBy === 'spl'
+      ? `The SPL cap is stricter: ${fmtDb(e.ceilingDbfs, 2)} dBFS applies (${fmtDb(e.spl.peakCeilingDbSpl, 1)} dB SPL peak, highest measured sensitivity).`
+      : `The SPL cap (${fmtDb(e.spl.peakCeilingDbSpl, 1)} dB SPL peak = ${fmtDb(e.spl.uncappedDbfs, 2)} dBFS) is looser: this cap applies.`;
+  }
+
+  /** Send the cap that applies to a running engine (after a calibration or SPL-cap change). */
+  private async applyCap(): Promise<void> {
+    if (this.running) await this.session.applySettings(this.engineSettings(), this.monitorGainDb);
+  }
+
+  private async onTone(hz: number, dbfs: number): Promise<void> {
+    if (this.busy || this.levelRunning) return;
+    if (this.controlOn) this.toggleControl();
+    try {
+      this.session.playTone(hz, dbfs);
+      this.tone = { hz, dbfs };
+      this.toneSeen = false;
+      this.status = `Calibration tone: ${fmtHz(hz)} at ${fmtDb(dbfs, 1)} dBFS. Read the SPL at the ear position and enter it.`;
+    } catch (e) {
+      this.status = `Could not play the tone: ${(e as Error).message}`;
+    }
+  }
+
+  private async onToneEnd(measuredDbSpl: number | null): Promise<void> {
+    this.calBusy = 'tone';
+    try {
+      const r = await this.session.stopTone();
+      if (measuredDbSpl === null) {
+        this.status = 'Calibration tone stopped; no reading saved.';
+        return;
+      }
+      if (!Number.isFinite(r.measuredDbfs)) throw new Error('the tone stopped before it reached a steady level: play it again');
+      // the level actually handed to the output (AES17), not the nominal one: they differ where the high-pass acts
+      this.outputCal = this.calibrations.addReading(this.outputKey, this.outputLabel, { hz: r.hz, dbfs: r.measuredDbfs, measuredDbSpl });
+      this.status = `Reading saved: ${fmtHz(r.hz)}, ${fmtDb(r.measuredDbfs, 2)} dBFS at the output gave ${fmtDb(measuredDbSpl, 1)} dB SPL.`;
+      await this.applyCap();
+    } catch (e) {
+      this.status = `Calibration reading not saved: ${(e as Error).message}`;
+    } finally {
+      this.tone = null;
+      this.calBusy = '';
+    }
+  }
+
+  private async onCalRemove(hz: number): Promise<void> {
+    this.outputCal = this.calibrations.removeReading(this.outputKey, hz);
+    await this.applyCap();
+  }
+
+  private async onSplCap(peakDbSpl: number | null): Promise<void> {
+    try {
+      this.outputCal = this.calibrations.setPeakCeiling(this.outputKey, peakDbSpl);
+      await this.applyCap();
+      const e = this.effective;
+      this.status = peakDbSpl === null ? 'SPL cap cleared: the dBFS cap applies alone.' : `Cap now ${fmtDb(e.ceilingDbfs, 2)} dBFS, set by the ${e.limitedBy === 'spl' ? 'SPL' : 'dBFS'} cap.`;
+    } catch (e) {
+      this.status = `SPL cap not set: ${(e as Error).message}`;
+    }
+  }
+
+  private async onMicMeasure(d: { knownDbSpl: number; hz: number; validFromHz: number; validToHz: number; seconds: number }): Promise<void> {
+    this.calBusy = 'mic';
+    this.status = `Recording the error mic for ${d.seconds} s: keep the reference source steady.`;
+    try {
+      const rec = await this.session.record(d.seconds);
+      const cal = micCalibrationFromRecording({ samples: rec.err, knownDbSpl: d.knownDbSpl, hz: d.hz, validFromHz: d.validFromHz, validToHz: d.validToHz });
+      this.micCal = this.calibrations.saveMic(this.micKey, { calibration: cal, knownDbSpl: d.knownDbSpl, measuredDbfs: d.knownDbSpl - cal.sensitivityDbSpl, label: this.micLabel });
+      this.status = `Error mic calibrated: 0 dBFS = ${fmtDb(cal.sensitivityDbSpl, 2)} dB SPL.`;
+    } catch (e) {
+      this.status = `Microphone calibration failed: ${(e as Error).message}`;
+    } finally {
+      this.calBusy = '';
+    }
+  }
+
+  private async onLevelCheck(signal: LevelCheckRequest['signal']): Promise<void> {
+    if (this.busy || this.levelRunning || this.tone) return;
+    if (this.controlOn) this.toggleControl();
+    const cal = this.activeOutputCal;
+    const peak = this.outputCal?.peakCeilingDbSpl ?? null;
+    const mic = this.micCal?.calibration;
+    const request: LevelCheckRequest = {
+      ceilingDbfs: this.settings.ceilingDbfs,
+      ...(cal && peak !== null ? { outputCalibration: this.outputCal!.points, peakCeilingDbSpl: peak } : {}),
+      ...(mic ? { micCalibration: mic } : {}),
+      signal,
+    };
+    this.levelRunning = true;
+    this.status = 'Level-cap check running: the test signals ramp past the cap. Control is off.';
+    try {
+      const { result, output } = await this.session.levelCheck(request, checkDurationS(signal));
+      const rep = buildLevelCheckReport(result, output, {
+        outputDevice: this.outputLabel,
+        errorMicDevice: this.micLabel,
+        sampleRate: this.session.sampleRate,
+        finishedAt: new Date().toISOString(),
+      });
+      const page = await levelCheckHtml(rep, result);
+      if (this.levelLinks) {
+        URL.revokeObjectURL(this.levelLinks.json);
+        URL.revokeObjectURL(this.levelLinks.html);
+      }
+      this.levelLinks = {
+        json: URL.createObjectURL(new Blob([reportJson(rep)], { type: 'application/json' })),
+        html: URL.createObjectURL(new Blob([page], { type: 'text/html' })),
+      };
+      this.levelReport = rep;
+      this.status = rep.passed
+        ? `Level-cap check passed: largest sample ${fmtDb(rep.maxSamplePeakDbfs, 2)} dBFS against the ${fmtDb(rep.ceilingDbfs, 2)} dBFS cap. Save the report below.`
+        : `Level-cap check FAILED: ${rep.reasons.join('; ')}.`;
+    } catch (e) {
+      this.status = `Level-cap check did not finish: ${(e as Error).message}`;
+    } finally {
+      this.levelRunning = false;
+    }
   }
 
   private $<T extends Element>(sel: string): T | null {
@@ -371,7 +605,19 @@ export class AncbApp extends LitElement {
       m('gr')?.show(d.grDb, NaN, NaN, nowMs);
       this.setReadout('att-now', d.attNowDb);
       this.setReadout('att-avg', d.attAvgDb);
-      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtDb(d.maxTruePeakDb)} dBTP · cap ${fmtDb(d.ceilingDb)} dBFS sample peak${d.frozenByLimiter === 1 ? ' · adaptation paused while the limiter works' : ''}`);
+      const cal = live ? this.activeOutputCal : null;
+      // the cap in dB SPL: peak SPL at the most sensitive calibrated frequency bounds every frequency in the range
+      const capSpl = cal ? ` = at most ${fmtDb(d.ceilingDb + maxSensitivity(cal).db + SINE_CREST_DB)} dB SPL peak at the ear (${fmtHz(cal.minHz)} … ${fmtHz(cal.maxHz)})` : '';
+      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtDb(d.maxTruePeakDb)} dBTP · cap ${fmtDb(d.ceilingDb)} dBFS sample peak${capSpl}${d.frozenByLimiter === 1 ? ' · adaptation paused while the limiter works' : ''}`);
+      if (this.levelRunning) this.$<AncbLevelCheck>('ancb-level-check')?.showProgress(d.probeProgress);
+      if (this.tone && this.calBusy === '') {
+        // the tone stops by itself after TONE_MAX_S: the mode leaves 'tone' (4) without a stop from here
+        if (d.mode === 4) this.toneSeen = true;
+        else if (this.toneSeen) {
+          this.tone = null;
+          this.status = 'The calibration tone stopped by itself (time limit): play it again to take a reading.';
+        }
+      }
       this.$<AncbTones>('ancb-tones')?.show(d, nowMs);
       if (d.guardState !== this.guardState) this.guardState = d.guardState;
       const setup = this.$<AncbLiveSetup>('ancb-live-setup');
@@ -465,7 +711,8 @@ export class AncbApp extends LitElement {
             'one-mic layout: choose the tone follower with “Tone from: error mic” under Controller (broadband FxLMS needs a reference mic)',
           ];
         }
-        await this.session.startLive(this.choice, this.settings);
+        this.loadCalibrations();
+        await this.session.startLive(this.choice, this.engineSettings());
         // access was granted by opening the microphones: list the devices for the pickers
         if (!this.devices) void this.refreshDevices();
         this.status = `Microphones open at ${this.session.sampleRate / 1000} kHz. ${this.identified && this.identified.sampleRate === this.session.sampleRate ? 'Model loaded.' : 'Next: identify the secondary path.'}`;
@@ -486,12 +733,15 @@ export class AncbApp extends LitElement {
     await this.session.stop();
     this.running = false;
     this.controlOn = false;
+    this.tone = null;
+    this.calBusy = '';
     this.busy = '';
     this.status = 'Stopped.';
   }
 
   private get canControl(): boolean {
     if (!this.running) return false;
+    if (this.tone || this.levelRunning) return false;
     if (this.source === 'sim') return true;
     return this.identified !== null && this.identified.sampleRate === this.session.sampleRate && this.busy !== 'identify';
   }
@@ -518,9 +768,14 @@ export class AncbApp extends LitElement {
 
   private async onSettings(e: CustomEvent<ControlSettings>): Promise<void> {
     const next = e.detail;
+    const prev = this.settings.controller;
     this.settings = next;
-    const how = await this.session.applySettings(next, this.monitorGainDb);
-    if (how === 'rebuilt') {
+    const how = await this.session.applySettings(this.engineSettings(next), this.monitorGainDb);
+    if (how === 'switched') {
+      const to = next.controller.algorithm === 'tonal' ? 'the tone follower' : `broadband ${next.controller.algorithm === 'fxlms' ? 'FxLMS' : 'FxNLMS'}`;
+      const from = prev.algorithm === 'tonal' ? 'the tone follower' : 'broadband control';
+      this.status = `Switched from ${from} to ${to} with a ${SWITCH_CROSSFADE_MS} ms crossfade: no restart; it resumes with the weights it had.`;
+    } else if (how === 'rebuilt') {
       this.controlOn = false;
       this.status = this.source === 'sim' ? 'Controller rebuilt: the plant restarted with control off.' : 'Controller rebuilt with the current model: control is off, weights start from zero.';
     }
@@ -569,11 +824,12 @@ export class AncbApp extends LitElement {
   private onChoice(c: DeviceChoice): void {
     this.choice = c;
     saveChoice(c);
+    this.loadCalibrations();
     if (this.running && this.source === 'live') this.status = 'Device choice changed: press Stop and Start to use it, then identify again.';
   }
 
   private async onIdentify(probeDbfs: number, firTaps: number): Promise<void> {
-    if (this.busy) return;
+    if (this.busy || this.tone || this.levelRunning) return;
     if (this.controlOn) this.toggleControl();
     this.busy = 'identify';
     this.status = 'Identifying: a sweep plays through the loudspeaker. Keep quiet for two seconds.';
@@ -663,9 +919,55 @@ export class AncbApp extends LitElement {
     ></ancb-live-setup>`;
   }
 
+  private renderTools(): unknown {
+    const e = this.effective;
+    const capText = e.spl
+      ? `${fmtDb(e.ceilingDbfs, 2)} dBFS sample peak, the stricter of ${fmtDb(e.dbfsCeiling, 1)} dBFS and ${fmtDb(e.spl.peakCeilingDbSpl, 1)} dB SPL peak`
+      : `${fmtDb(e.ceilingDbfs, 2)} dBFS sample peak`;
+    const cal = this.activeOutputCal;
+    return html`<div class="tools">
+      <ancb-calibration
+        .open=${this.running && this.busy === '' && !this.levelRunning}
+        .sampleRate=${Number.isFinite(this.session.sampleRate) ? this.session.sampleRate : 48000}
+        .outputLabel=${this.outputLabel}
+        .output=${this.outputCal}
+        .capDbfs=${this.settings.ceilingDbfs}
+        .effective=${e}
+        .tone=${this.tone}
+        .busy=${this.calBusy}
+        .micLabel=${this.micLabel}
+        .mic=${this.micCal}
+        @ancb-tone=${(ev: CustomEvent<{ hz: number; dbfs: number }>) => void this.onTone(ev.detail.hz, ev.detail.dbfs)}
+        @ancb-tone-save=${(ev: CustomEvent<{ measuredDbSpl: number }>) => void this.onToneEnd(ev.detail.measuredDbSpl)}
+        @ancb-tone-stop=${() => void this.onToneEnd(null)}
+        @ancb-cal-remove=${(ev: CustomEvent<{ hz: number }>) => void this.onCalRemove(ev.detail.hz)}
+        @ancb-spl-cap=${(ev: CustomEvent<{ peakDbSpl: number | null }>) => void this.onSplCap(ev.detail.peakDbSpl)}
+        @ancb-mic-measure=${(ev: CustomEvent<{ knownDbSpl: number; hz: number; validFromHz: number; validToHz: number; seconds: number }>) => void this.onMicMeasure(ev.detail)}
+        @ancb-mic-clear=${() => {
+          this.calibrations.clearMic(this.micKey);
+          this.micCal = null;
+        }}
+      ></ancb-calibration>
+      <ancb-level-check
+        .open=${this.running && this.busy === '' && !this.tone}
+        .running=${this.levelRunning}
+        .capText=${capText}
+        .capDbfs=${e.ceilingDbfs}
+        .defaultToneHz=${cal ? maxSensitivity(cal).hz : 1000}
+        .sampleRate=${Number.isFinite(this.session.sampleRate) ? this.session.sampleRate : 48000}
+        .report=${this.levelReport}
+        .links=${this.levelLinks}
+        @ancb-level-check=${(ev: CustomEvent<{ signal: LevelCheckRequest['signal'] }>) => void this.onLevelCheck(ev.detail.signal)}
+        @ancb-level-check-cancel=${() => this.session.cancelLevelCheck()}
+      ></ancb-level-check>
+    </div>`;
+  }
+
   protected override render(): unknown {
     const live = this.source === 'live';
     const canControl = this.canControl;
+    const outCal = live ? this.activeOutputCal : null;
+    const errSpl = live ? this.micCal : null;
     const controlHint = !this.running ? 'Start first' : live && !canControl ? 'identify the secondary path first' : '';
     return html`
       <header>
@@ -699,7 +1001,7 @@ export class AncbApp extends LitElement {
       <div class="layout">
         <aside>
           ${this.renderSource()}
-          <ancb-controls .settings=${this.settings} @ancb-settings=${(e: CustomEvent<ControlSettings>) => void this.onSettings(e)} @ancb-reset-weights=${() => this.session.resetWeights()}></ancb-controls>
+          <ancb-controls .settings=${this.settings} .capNote=${live ? this.capNote : ''} @ancb-settings=${(e: CustomEvent<ControlSettings>) => void this.onSettings(e)} @ancb-reset-weights=${() => this.session.resetWeights()}></ancb-controls>
         </aside>
         <section class="display" aria-label="Measurements">
           <div class="card levels">
@@ -709,8 +1011,10 @@ export class AncbApp extends LitElement {
             </div>
             <div class="bars">
               <ancb-meter channel="ref" label="Reference mic"></ancb-meter>
-              <ancb-meter channel="err" label="Error mic"></ancb-meter>
-              <ancb-meter channel="out" label="Output" note="RMS bar, peak marker (1 s hold), red: cap"></ancb-meter>
+              <ancb-meter channel="err" label="Error mic" .splOffsetDb=${errSpl ? errSpl.calibration.sensitivityDbSpl : null}
+                .splNote=${errSpl ? `mic calibration, sound within ${fmtHz(errSpl.calibration.validFromHz)} … ${fmtHz(errSpl.calibration.validToHz)}` : ''}></ancb-meter>
+              <ancb-meter channel="out" label="Output" note="RMS bar, peak marker (1 s hold), red: cap" .splOffsetDb=${outCal ? maxSensitivity(outCal).db : null} splPrefix="≤ "
+                .splNote=${outCal ? `at the ear, bound from the most sensitive reading (${fmtHz(maxSensitivity(outCal).hz)}); holds for ${fmtHz(outCal.minHz)} … ${fmtHz(outCal.maxHz)}` : ''}></ancb-meter>
               <ancb-meter channel="gr" label="Limiter" unit="dB GR" min="0" max="24" note="gain reduction; the cap limits sample peaks, a true peak can read up to about 6 dB higher"></ancb-meter>
               <p class="small muted" id="true-peak"></p>
             </div>
@@ -730,6 +1034,7 @@ export class AncbApp extends LitElement {
               : ''}
             <ancb-tones></ancb-tones>
           </div>
+          ${live ? this.renderTools() : ''}
           <ancb-events></ancb-events>
         </section>
       </div>

@@ -4,7 +4,7 @@
  * The native <dialog> traps focus and closes on Escape, so it works from the keyboard.
  */
 import { LitElement, css, html } from 'lit';
-import { shared } from './theme.ts';
+import { shared, dialogStyles } from './theme.ts';
 
 export const CAUTION_POINTS = [
   'Start at a low volume and raise it slowly. The output cap limits the level in the signal, not what your amplifier and loudspeaker make of it.',
@@ -17,18 +17,12 @@ export const CAUTION_POINTS = [
 export class AncbCautions extends LitElement {
   static override styles = [
     shared,
+    dialogStyles,
     css`
       dialog {
         max-width: 40rem;
-        background: var(--ancb-card);
-        color: var(--ancb-fg);
-        border: 2px solid var(--ancb-warn);
-        border-radius: 12px;
         padding: 1.2rem 1.4rem;
         font-size: 1.05rem;
-      }
-      dialog::backdrop {
-        background: rgb(0 0 0 / 0.6);
       }
       h2 {
         font-size: 1.3rem;
@@ -38,10 +32,7 @@ export class AncbCautions extends LitElement {
         margin: 0.45rem 0;
         line-height: 1.4;
       }
-      .buttons {
-        display: flex;
-        gap: 0.8rem;
-        justify-content: flex-end;
+      dialog .buttons {
         margin-top: 1rem;
       }
     `,

@@ -6,6 +6,11 @@
  *
  * Step size and output cap have a slider and a number field bound together: the slider for quick
  * moves in a demonstration, the field for an exact value. The step-size slider is logarithmic.
+ *
+ * The settings carry the other controller family's last settings as `standby` (the tone follower
+ * beside broadband FxLMS, or the reverse), so the engine can keep it ready and a switch of algorithm
+ * crossfades instead of restarting. `capNote` (set by the panel) says which cap applies when an SPL
+ * cap from a calibration is stricter than the dBFS one.
  */
 import { LitElement, css, html } from 'lit';
 import { shared, formLayout } from './theme.ts';
@@ -15,8 +20,13 @@ import type { FxlmsConfig } from '../dsp/fxlms.ts';
 
 export const HARMONICS_RANGE: [number, number] = [1, 8];
 export const TONE_HZ_RANGE: [number, number] = [20, 2000];
-const DEFAULT_FX: FxlmsConfig = { algorithm: 'fxnlms', taps: 64, stepSize: 0.002 };
-const DEFAULT_TONAL: TonalSettings = { algorithm: 'tonal', harmonics: 1, stepSize: 0.005, frequencySource: 'reference' };
+export const DEFAULT_FX: FxlmsConfig = { algorithm: 'fxnlms', taps: 64, stepSize: 0.002 };
+export const DEFAULT_TONAL: TonalSettings = { algorithm: 'tonal', harmonics: 1, stepSize: 0.005, frequencySource: 'reference' };
+
+/** The standby for a controller: the other family's defaults. */
+export function defaultStandby(c: ControllerConfig): ControllerConfig {
+  return c.algorithm === 'tonal' ? { ...DEFAULT_FX } : { ...DEFAULT_TONAL };
+}
 
 export const TAPS_RANGE: [number, number] = [1, 4096];
 export const STEP_RANGE: [number, number] = [1e-6, 2];
@@ -27,6 +37,7 @@ export const CAP_RANGE: [number, number] = [-40, 0];
 export class AncbControls extends LitElement {
   static override properties = {
     settings: { attribute: false },
+    capNote: {},
     problem: { state: true },
   };
 
@@ -71,14 +82,30 @@ export class AncbControls extends LitElement {
 
   declare settings: ControlSettings;
   declare problem: string;
+  /** Which cap applies (the panel's text; empty when the dBFS cap alone applies). */
+  declare capNote: string;
 
   constructor() {
     super();
-    this.settings = { controller: DEFAULT_FX, ceilingDbfs: -6, adaptation: true };
+    this.settings = { controller: DEFAULT_FX, ceilingDbfs: -6, adaptation: true, standby: DEFAULT_TONAL };
     this.problem = '';
+    this.capNote = '';
+  }
+
+  override willUpdate(changed: Map<string, unknown>): void {
+    // settings given by the panel (a scenario, a reload): remember each family's settings from them
+    if (changed.has('settings')) {
+      const { controller: c, standby: sb } = this.settings;
+      if (c.algorithm === 'tonal') this.lastTonal = c;
+      else this.lastFx = c;
+      if (sb && sb.algorithm === 'tonal' && c.algorithm !== 'tonal') this.lastTonal = sb;
+      if (sb && sb.algorithm !== 'tonal' && c.algorithm === 'tonal') this.lastFx = sb;
+    }
   }
 
   private emit(next: ControlSettings): void {
+    const c = next.controller;
+    next = { ...next, standby: c.algorithm === 'tonal' ? this.lastFx : this.lastTonal };
     this.settings = next;
     this.problem = '';
     this.dispatchEvent(new CustomEvent<ControlSettings>('ancb-settings', { detail: next, bubbles: true, composed: true }));
@@ -200,6 +227,7 @@ export class AncbControls extends LitElement {
           <input id="cap" type="number" min=${CAP_RANGE[0]} max=${CAP_RANGE[1]} step="0.5" .value=${String(this.settings.ceilingDbfs)}
             @change=${(e: Event) => { const v = this.numberIn(e, 'Output cap', CAP_RANGE); if (v !== null) this.setCap(v); }} /><span class="unit">dBFS peak</span>
         </span>
+        ${this.capNote ? html`<span></span><span class="unit" id="cap-note">${this.capNote}</span>` : ''}
       </div>
       <div class="row">
         <label class="check"><input id="adapt" type="checkbox" .checked=${this.settings.adaptation}

@@ -34,6 +34,10 @@ export class DisplayState {
   guardState = 0;
   frozenByLimiter = 0;
   maxTruePeakDb = NaN;
+  /** Largest step between consecutive output samples in the last frame (linear, full scale 1): the click meter. */
+  outMaxStep = NaN;
+  /** 1 while the engine crossfades between controllers. */
+  switching = 0;
   /** Tone follower, per harmonic (index k − 1): frequency, before/after levels in dBFS (AES17), phase, attenuation. */
   toneHarmonics = 0;
   readonly hHz = new Float64Array(MAX_PANEL_HARMONICS);
@@ -46,6 +50,9 @@ export class DisplayState {
   readonly histT: number[] = [];
   readonly histNow: (number | null)[] = [];
   readonly histAvg: (number | null)[] = [];
+  /** Per frame, aligned with histT: the click meter and the output sample peak (linear). */
+  readonly histStep: number[] = [];
+  readonly histOutPeak: number[] = [];
   readonly toneT: number[] = [];
   readonly toneF: (number | null)[] = [];
   private refP = NaN;
@@ -66,7 +73,7 @@ export class DisplayState {
       if (typeof v === 'number' || typeof v === 'string') (this as Record<string, unknown>)[key] = v;
     }
     this.kind = kind;
-    for (const a of [this.histT, this.histNow, this.histAvg, this.toneT, this.toneF]) a.length = 0;
+    for (const a of [this.histT, this.histNow, this.histAvg, this.histStep, this.histOutPeak, this.toneT, this.toneF]) a.length = 0;
     for (const a of [this.hHz, this.hBeforeDb, this.hAfterDb, this.hPhaseDeg, this.hAttDb]) a.fill(NaN);
   }
 
@@ -101,6 +108,8 @@ export class DisplayState {
     this.guardState = f[M.guardState]!;
     this.frozenByLimiter = f[M.frozenByLimiter]!;
     this.maxTruePeakDb = 20 * Math.log10(f[M.maxTruePeak]!);
+    this.outMaxStep = f[M.outMaxStep]!;
+    this.switching = f[M.switching]!;
     const th = f[M.toneHarmonics]!;
     this.toneHarmonics = Number.isFinite(th) ? th : 0;
     for (let k = 1; k <= MAX_PANEL_HARMONICS; k++) {
@@ -133,10 +142,14 @@ export class DisplayState {
     this.histT.push(t);
     this.histNow.push(keep(this.attNowDb));
     this.histAvg.push(keep(this.attAvgDb));
+    this.histStep.push(this.outMaxStep);
+    this.histOutPeak.push(pk);
     while (this.histT.length > 2 && t - this.histT[0]! > HISTORY_S) {
       this.histT.shift();
       this.histNow.shift();
       this.histAvg.shift();
+      this.histStep.shift();
+      this.histOutPeak.shift();
     }
     if (Number.isFinite(this.toneHz) || this.toneT.length > 0) {
       this.toneT.push(t);

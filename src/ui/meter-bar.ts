@@ -6,7 +6,9 @@
  * a second, so the number stays readable. No Lit re-render happens per frame.
  *
  * dB SPL appears only when `splOffsetDb` is set from a calibration of that channel; without one the
- * meter says so and never shows an SPL figure.
+ * meter says so and never shows an SPL figure. With one, the SPL reading (dBFS + offset) is shown
+ * under the bar with `splPrefix` (e.g. "≤ " for an upper bound) and `splNote` (the frequency range
+ * the calibration holds for); it is in `data-spl`.
  *
  * Attributes: label, unit, min, max, channel (a name for tests and styling).
  * Parts: `bar` (canvas), `value` (reading).
@@ -25,6 +27,8 @@ export class AncbMeter extends LitElement {
     max: { type: Number },
     channel: { reflect: true },
     splOffsetDb: { attribute: false },
+    splPrefix: {},
+    splNote: {},
     note: {},
   };
   static override styles = [
@@ -67,6 +71,10 @@ export class AncbMeter extends LitElement {
   declare channel: string;
   /** dB SPL = dBFS + splOffsetDb, from a calibration of this channel; null: uncalibrated. */
   declare splOffsetDb: number | null;
+  /** Text before the SPL reading ('' or '≤ ' for a bound). */
+  declare splPrefix: string;
+  /** Where the SPL reading holds (frequency range of the calibration). */
+  declare splNote: string;
   /** A note under the bar (e.g. what the peak marker means). */
   declare note: string;
   private lastText = 0;
@@ -87,6 +95,8 @@ export class AncbMeter extends LitElement {
     this.max = 0;
     this.channel = '';
     this.splOffsetDb = null;
+    this.splPrefix = '';
+    this.splNote = '';
     this.note = '';
   }
 
@@ -96,6 +106,10 @@ export class AncbMeter extends LitElement {
 
   private get valueEl(): HTMLElement | null {
     return this.renderRoot.querySelector('.value');
+  }
+
+  private get splEl(): HTMLElement | null {
+    return this.renderRoot.querySelector('.spl');
   }
 
   override connectedCallback(): void {
@@ -119,6 +133,11 @@ export class AncbMeter extends LitElement {
 
   protected override updated(changed: PropertyValues): void {
     if (changed.has('label')) this.setAttribute('aria-label', `${this.label} (${this.unit})`);
+    // the readings' text is set outside Lit (8 times a second, in show()), so their elements carry no
+    // bindings a re-render could trip over: fill them after each render
+    const v = this.valueEl;
+    if (v && !v.textContent) v.textContent = `${fmtDb(this.value)} ${this.unit}`;
+    if (changed.has('splOffsetDb') || changed.has('splPrefix')) this.showSpl(this.value);
   }
 
   /** Forget cached theme colours (call after a theme change). */
@@ -158,7 +177,23 @@ export class AncbMeter extends LitElement {
         else this.removeAttribute('aria-valuenow');
         this.setAttribute('aria-valuetext', text);
       }
+      this.showSpl(value);
     }
+  }
+
+  /** The SPL reading under the bar: only with a calibration of this channel. */
+  private showSpl(value: number): void {
+    const el = this.splEl;
+    const off = this.splOffsetDb;
+    if (off === null || this.unit !== 'dBFS') {
+      if (this.dataset.spl !== undefined) delete this.dataset.spl;
+      return;
+    }
+    const spl = value + off;
+    const text = `${this.splPrefix}${fmtDb(spl)} dB SPL`;
+    if (el && el.textContent !== text) el.textContent = text;
+    const data = Number.isFinite(spl) ? (Math.round(spl * 10) / 10).toString() : '';
+    if (this.dataset.spl !== data) this.dataset.spl = data;
   }
 
   private x(v: number, w: number): number {
@@ -196,9 +231,13 @@ export class AncbMeter extends LitElement {
   }
 
   protected override render(): unknown {
-    const spl = this.splOffsetDb === null ? 'dB SPL: not calibrated' : '';
-    const sub = [this.note, this.unit === 'dBFS' ? spl : ''].filter(Boolean).join(' · ');
-    return html`<span class="label">${this.label}</span><canvas part="bar" aria-hidden="true"></canvas><span class="value" part="value">${fmtDb(NaN)} ${this.unit}</span>${sub ? html`<span class="sub">${sub}</span>` : ''}`;
+    const dbfs = this.unit === 'dBFS';
+    const calibrated = dbfs && this.splOffsetDb !== null;
+    const spl = dbfs && !calibrated ? 'dB SPL: not calibrated' : '';
+    const sub = [this.note, spl].filter(Boolean).join(' · ');
+    return html`<span class="label">${this.label}</span><canvas part="bar" aria-hidden="true"></canvas><span class="value" part="value"></span>${sub || calibrated
+      ? html`<span class="sub">${calibrated ? html`<b class="spl" part="spl"></b> <span>(${this.splNote})</span>${sub ? ' · ' : ''}` : ''}${sub}</span>`
+      : ''}`;
   }
 }
 

@@ -156,3 +156,41 @@ export const formLayout = css`
     border-left-color: var(--ancb-warn);
   }
 `;
+
+/** Confirm and caution dialogs (native <dialog>: modal, focus trapped, Escape cancels). */
+export const dialogStyles = css`
+  dialog {
+    max-width: 36rem;
+    background: var(--ancb-card);
+    color: var(--ancb-fg);
+    border: 2px solid var(--ancb-warn);
+    border-radius: 12px;
+    padding: 1rem 1.2rem;
+  }
+  dialog::backdrop {
+    background: rgb(0 0 0 / 0.6);
+  }
+  dialog .buttons {
+    display: flex;
+    gap: 0.8rem;
+    justify-content: flex-end;
+    margin-top: 0.8rem;
+  }
+`;
+
+/** Number tables (readings, per-harmonic figures): figures right-aligned in the mono face, first column left. */
+export const tableStyles = css`
+  th,
+  td {
+    text-align: right;
+    padding: 0.2rem 0.45rem;
+    border-bottom: 1px solid var(--ancb-line);
+  }
+  th:first-child,
+  td:first-child {
+    text-align: left;
+  }
+  td {
+    font-family: var(--ancb-mono);
+  }
+`;

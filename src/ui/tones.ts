@@ -6,7 +6,7 @@
  * times a second, and the table's rows are rebuilt only when the number of harmonics changes.
  */
 import { LitElement, css, html } from 'lit';
-import { shared } from './theme.ts';
+import { shared, tableStyles } from './theme.ts';
 import { fmtDb, fmtHz } from './format.ts';
 import type { DisplayState } from './display-state.ts';
 
@@ -22,6 +22,7 @@ export class AncbTones extends LitElement {
   static override properties = { rows: { state: true } };
   static override styles = [
     shared,
+    tableStyles,
     css`
       :host {
         display: block;
@@ -52,16 +53,7 @@ export class AncbTones extends LitElement {
       }
       th,
       td {
-        text-align: right;
         padding: 0.2rem 0.5rem;
-        border-bottom: 1px solid var(--ancb-line);
-      }
-      th:first-child,
-      td:first-child {
-        text-align: left;
-      }
-      td {
-        font-family: var(--ancb-mono);
       }
     `,
   ];

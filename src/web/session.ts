@@ -12,8 +12,10 @@ import './zod-jitless.ts';
 import type { IAudioContext, IAudioWorkletNode, GainNode } from 'standardized-audio-context';
 import { parseScenario, type Scenario } from '../plant/scenario.ts';
 import { trueSecondaryPath } from '../plant/simulate.ts';
-import type { ControllerConfig } from '../engine/controller-factory.ts';
-import type { PanelEvent, ProbeSpec, WorkletMessage } from '../engine/messages.ts';
+import { createController, type ControllerConfig } from '../engine/controller-factory.ts';
+import { DEFAULT_CROSSFADE_MS } from '../engine/engine.ts';
+import type { HandedToOutput, LevelCheckRequest, PanelEvent, ProbeSpec, WorkletMessage } from '../engine/messages.ts';
+import type { LevelCapResult } from '../plant/level-cap-check.ts';
 import type { IdentificationResult } from '../analysis/live-analysis.ts';
 import { TelemetryChannel, buildMicGraph, createLiveNode, createMaster, createSimNode, openContext, rampGain, type AnyContext, type MicGraph } from './audio-graph.ts';
 import { analysis, connectAudioToAnalysis } from './analysis-client.ts';
@@ -34,6 +36,27 @@ export interface ControlSettings {
   controller: ControllerConfig;
   ceilingDbfs: number;
   adaptation: boolean;
+  /**
+   * The other controller family's settings (tone follower beside broadband FxLMS, or the reverse):
+   * the engine keeps it on standby, so switching between the two crossfades instead of restarting.
+   */
+  standby?: ControllerConfig;
+}
+
+/** Crossfade between the two controllers when the user switches algorithm, ms. */
+export const SWITCH_CROSSFADE_MS = DEFAULT_CROSSFADE_MS;
+
+/** What a calibration tone left behind: its nominal level and the AES17 level handed to the output. */
+export interface ToneResult {
+  hz: number;
+  dbfs: number;
+  measuredDbfs: number;
+  samples: number;
+}
+
+export interface LevelCheckOutcome {
+  result: LevelCapResult;
+  output: HandedToOutput;
 }
 
 export interface ModelInfo {
@@ -96,6 +119,38 @@ export function needsRebuild(a: ControllerConfig, b: ControllerConfig): boolean 
   return false;
 }
 
+/**
+ * Whether a controller built as `built` can become `target` by in-place changes alone (step size,
+ * leakage, and for the tone follower harmonics and frequency source): then a standby controller
+ * built as `built` can take over by a crossfade. Sizes and fixed options must match.
+ */
+export function inPlaceReachable(built: ControllerConfig, target: ControllerConfig): boolean {
+  if (built.algorithm !== target.algorithm) return false;
+  if (built.algorithm === 'tonal' && target.algorithm === 'tonal') {
+    return built.minHz === target.minHz && built.maxHz === target.maxHz && built.harmonicsCheck === target.harmonicsCheck && built.regularization === target.regularization;
+  }
+  if (built.algorithm !== 'tonal' && target.algorithm !== 'tonal') {
+    return built.taps === target.taps && built.update === target.update && built.regularization === target.regularization;
+  }
+  return false;
+}
+
+/** Controller family: the tone follower or broadband FxLMS/FxNLMS. */
+export function family(c: ControllerConfig): 'tonal' | 'broadband' {
+  return c.algorithm === 'tonal' ? 'tonal' : 'broadband';
+}
+
+/** A standby configuration the engine can build for this model, block and rate, or null (with no switch offered). */
+export function usableStandby(standby: ControllerConfig | undefined, active: ControllerConfig, model: Float32Array, block: number, rate: number): ControllerConfig | null {
+  if (!standby || family(standby) === family(active)) return null;
+  try {
+    createController(standby, model, block, rate);
+    return standby;
+  } catch {
+    return null;
+  }
+}
+
 /** Scenarios whose sources drift or come from files cannot run forever: they stop at durationS. */
 export function isStationary(sc: Scenario): boolean {
   return sc.sources.every((s) => s.kind !== 'wav' && !('driftHzPerS' in s && s.driftHzPerS));
@@ -123,6 +178,8 @@ export class Session {
   private settings: ControlSettings | null = null;
   private waiters: { type: string; resolve: (m: WorkletMessage) => void; reject: (e: Error) => void }[] = [];
   private endTimer: ReturnType<typeof setTimeout> | null = null;
+  /** The controllers the running engine was built with (active, and its standby), kept in step with in-place changes. */
+  private built: { active: ControllerConfig; standby: ControllerConfig | null } | null = null;
   /** Force posted telemetry (tests of the fallback path). */
   forcePosted = false;
 
@@ -201,16 +258,19 @@ export class Session {
     const ctx = await this.context(sc.sampleRate);
     const scenario = scenarioForPanel(sc, settings);
     const telemetry = new TelemetryChannel(30, 4096, this.forcePosted);
+    const standby = usableStandby(settings.standby, settings.controller, Float32Array.from(trueSecondaryPath(scenario)), scenario.blockSize, scenario.sampleRate);
     const node = createSimNode(ctx, {
       scenario,
       monitorGainDb,
       monitorCeilingDbfs: MONITOR_CEILING_DBFS,
       startMode: 'idle',
+      ...(standby ? { standbyController: standby } : {}),
       telemetry: telemetry.options,
     });
     this.kind = 'sim';
     this.scenario = scenario;
     this.settings = settings;
+    this.built = { active: { ...settings.controller }, standby };
     this.stale = false;
     await this.wire(node, ctx, telemetry);
     if (!settings.adaptation) this.post({ type: 'set-adaptation', on: false });
@@ -237,8 +297,10 @@ export class Session {
     const telemetry = new TelemetryChannel(30, 4096, this.forcePosted);
     const fs = ctx.sampleRate;
     const model = this.identified && this.identified.sampleRate === fs ? this.identified.model : new Float32Array(1);
+    const standby = usableStandby(settings.standby, settings.controller, model, 128, fs);
     const node = createLiveNode(ctx, {
       controller: settings.controller,
+      ...(standby ? { standbyController: standby } : {}),
       secondaryPathModel: model,
       ceilingDbfs: settings.ceilingDbfs,
       startMode: 'idle',
@@ -251,6 +313,7 @@ export class Session {
     this.inputs = inputs;
     this.mic = mic;
     this.settings = settings;
+    this.built = { active: { ...settings.controller }, standby };
     await this.wire(node, ctx, telemetry);
     if (!settings.adaptation) this.post({ type: 'set-adaptation', on: false });
     this.handlers.model({ taps: model, truePath: null, sampleRate: fs, source: this.identified ? 'identified' : 'none' });
@@ -289,9 +352,7 @@ export class Session {
   async loadModel(result: IdentificationResult): Promise<void> {
     if (this.kind !== 'live' || !this.node || !this.settings) throw new Error('no live session to load the model into');
     if (result.sampleRate !== this.sampleRate) throw new Error(`the model was measured at ${result.sampleRate} Hz, the audio now runs at ${this.sampleRate} Hz: identify again`);
-    const configured = this.message('configured', 5000);
-    this.post({ type: 'configure', controller: this.settings.controller, secondaryPathModel: result.model, startMode: 'idle' });
-    await configured;
+    await this.configureLive(this.settings, result.model);
     if (!this.settings.adaptation) this.post({ type: 'set-adaptation', on: false });
     this.identified = result;
     this.stale = false;
@@ -316,28 +377,17 @@ export class Session {
     if (this.kind === 'sim') this.post({ type: 'set-monitor', gainDb, source });
   }
 
-  /**
-   * Apply control settings. Step size, leakage and cap change in place; algorithm or filter length
-   * rebuild the engine (live: with the current model; simulated: the plant restarts).
-   */
-  async applySettings(next: ControlSettings, monitorGainDb: number): Promise<'in-place' | 'rebuilt'> {
-    const prev = this.settings;
-    this.settings = { ...next, controller: { ...next.controller } };
-    if (!this.node || !prev) return 'in-place';
-    const c = next.controller;
-    const p = prev.controller;
-    if (needsRebuild(p, c)) {
-      if (this.kind === 'sim' && this.scenario) {
-        await this.startSim(this.scenario, this.settings, monitorGainDb);
-      } else {
-        const model = this.identified?.model ?? new Float32Array(1);
-        const configured = this.message('configured', 5000);
-        this.post({ type: 'configure', controller: c, secondaryPathModel: model, startMode: 'idle' });
-        await configured;
-        if (!next.adaptation || this.stale) this.post({ type: 'set-adaptation', on: false });
-      }
-      return 'rebuilt';
-    }
+  /** A new live engine with the settings' controller (and standby) on `model`; control off. */
+  private async configureLive(settings: ControlSettings, model: Float32Array): Promise<void> {
+    const standby = usableStandby(settings.standby, settings.controller, model, 128, this.sampleRate);
+    const configured = this.message('configured', 5000);
+    this.post({ type: 'configure', controller: settings.controller, secondaryPathModel: model, startMode: 'idle', ...(standby ? { standbyController: standby } : {}) });
+    await configured;
+    this.built = { active: { ...settings.controller }, standby };
+  }
+
+  /** Post the in-place differences between two settings of the same controller. */
+  private postInPlace(p: ControllerConfig, c: ControllerConfig): void {
     if (c.algorithm === 'tonal' && p.algorithm === 'tonal') {
       if (c.harmonics !== p.harmonics) this.post({ type: 'set-harmonics', harmonics: c.harmonics });
       if (c.frequencySource !== p.frequencySource || c.hz !== p.hz) {
@@ -345,11 +395,101 @@ export class Session {
         this.post(source === 'fixed' ? { type: 'set-frequency-source', source, hz: c.hz } : { type: 'set-frequency-source', source });
       }
     }
-    if (c.stepSize !== prev.controller.stepSize) this.post({ type: 'set-step-size', value: c.stepSize });
-    if ((c.leakage ?? 0) !== (prev.controller.leakage ?? 0)) this.post({ type: 'set-leakage', value: c.leakage ?? 0 });
+    if (c.stepSize !== p.stepSize) this.post({ type: 'set-step-size', value: c.stepSize });
+    if ((c.leakage ?? 0) !== (p.leakage ?? 0)) this.post({ type: 'set-leakage', value: c.leakage ?? 0 });
+  }
+
+  /**
+   * Apply control settings. Step size, leakage and cap change in place. A switch between broadband
+   * FxLMS and the tone follower hands over to the engine's standby controller with a crossfade
+   * (SWITCH_CROSSFADE_MS; no restart, no click) when the standby was built for the requested
+   * settings; otherwise algorithm or filter length rebuild the engine (live: with the current
+   * model; simulated: the plant restarts).
+   */
+  async applySettings(next: ControlSettings, monitorGainDb: number): Promise<'in-place' | 'rebuilt' | 'switched'> {
+    const prev = this.settings;
+    this.settings = { ...next, controller: { ...next.controller } };
+    if (!this.node || !prev || !this.built) return 'in-place';
+    const c = next.controller;
+    const built = this.built;
+    let how: 'in-place' | 'rebuilt' | 'switched' = 'in-place';
+    if (family(c) !== family(built.active) && built.standby && inPlaceReachable(built.standby, c)) {
+      const switched = this.message('switched', 5000);
+      this.post({ type: 'switch-controller', crossfadeMs: SWITCH_CROSSFADE_MS });
+      await switched;
+      // queued after the switch: they reach the incoming controller
+      this.postInPlace(built.standby, c);
+      this.built = { active: { ...c }, standby: built.active };
+      how = 'switched';
+    } else if (needsRebuild(built.active, c)) {
+      if (this.kind === 'sim' && this.scenario) {
+        await this.startSim(this.scenario, this.settings, monitorGainDb);
+      } else {
+        await this.configureLive(this.settings, this.identified?.model ?? new Float32Array(1));
+        if (!next.adaptation || this.stale) this.post({ type: 'set-adaptation', on: false });
+      }
+      return 'rebuilt';
+    } else {
+      this.postInPlace(built.active, c);
+      this.built = { active: { ...c }, standby: built.standby };
+    }
     if (next.ceilingDbfs !== prev.ceilingDbfs) this.post({ type: 'set-ceiling', dbfs: next.ceilingDbfs });
     if (next.adaptation !== prev.adaptation) this.setAdaptation(next.adaptation);
-    return 'in-place';
+    return how;
+  }
+
+  /** Whether a switch to the other controller family would crossfade (true) or rebuild (false). */
+  canSwitchTo(target: ControllerConfig): boolean {
+    const b = this.built;
+    return b !== null && b.standby !== null && family(target) !== family(b.active) && inPlaceReachable(b.standby, target);
+  }
+
+  private requireLive(what: string): void {
+    if (this.kind !== 'live' || !this.node) throw new Error(`${what} needs live microphones and a loudspeaker: switch to live mode and press Start`);
+  }
+
+  /**
+   * Play a calibration tone (live only): a sine of `dbfs` (AES17) at `hz` through the output stage,
+   * until `stopTone`. Control goes off first (the engine fades out).
+   */
+  playTone(hz: number, dbfs: number): void {
+    this.requireLive('a calibration tone');
+    this.post({ type: 'calibration-tone', hz, dbfs });
+  }
+
+  /** Fade the tone out; resolves with the level that was handed to the output over its steady part. */
+  async stopTone(): Promise<ToneResult> {
+    this.requireLive('a calibration tone');
+    const stopped = this.message('tone-stopped', 5000);
+    this.post({ type: 'stop-tone' });
+    const m = (await stopped) as Extract<WorkletMessage, { type: 'tone-stopped' }>;
+    return { hz: m.hz, dbfs: m.dbfs, measuredDbfs: m.measuredDbfs, samples: m.samples };
+  }
+
+  /** Record both microphones for `seconds` (microphone calibration). */
+  async record(seconds: number): Promise<{ err: Float32Array; ref: Float32Array; sampleRate: number }> {
+    this.requireLive('a microphone recording');
+    const got = this.message('recording', seconds * 1000 + 5000);
+    this.post({ type: 'record', seconds });
+    const m = (await got) as Extract<WorkletMessage, { type: 'recording' }>;
+    return { err: m.err, ref: m.ref, sampleRate: m.sampleRate };
+  }
+
+  /**
+   * Run the level-cap check on the live output (control goes off first). Resolves with the check's
+   * result and the processor's own count of what it handed to the output; `cancelLevelCheck` ends it
+   * early (the result then says it did not complete).
+   */
+  async levelCheck(request: LevelCheckRequest, expectedS: number): Promise<LevelCheckOutcome> {
+    this.requireLive('the level-cap check');
+    const got = this.message('level-check-result', (expectedS + 15) * 1000);
+    this.post({ type: 'level-check', request });
+    const m = (await got) as Extract<WorkletMessage, { type: 'level-check-result' }>;
+    return { result: m.result as LevelCapResult, output: m.output };
+  }
+
+  cancelLevelCheck(): void {
+    this.post({ type: 'cancel-level-check' });
   }
 
   /** Deliver new meter frames and events (call from the display loop). */
@@ -396,5 +536,6 @@ export class Session {
     this.inputs = null;
     this.telemetry = null;
     this.kind = null;
+    this.built = null;
   }
 }

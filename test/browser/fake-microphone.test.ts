@@ -1,9 +1,8 @@
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
-import { mkdirSync, writeFileSync } from 'node:fs';
+import { mkdirSync } from 'node:fs';
 import { resolve } from 'node:path';
 import type { Browser, Page } from 'playwright';
-import { WaveFile } from 'wavefile';
-import { fakeMicArgs, launch, panelValue, watchPage } from './helpers.ts';
+import { fakeMicArgs, launch, panelValue, watchPage, writeStereoToneWav } from './helpers.ts';
 
 const root = resolve(import.meta.dirname, '../..');
 const WAV = resolve(root, 'test-results/browser/fake-mic-stereo.wav');
@@ -15,23 +14,6 @@ const CHANNELS = [
 ];
 /** AES17: a sine of peak amplitude A reads 20·log10(A) dBFS RMS (full-scale sine = 0 dBFS). */
 const expectedDbfs = (a: number): number => 20 * Math.log10(a);
-
-/**
- * A stereo 16-bit WAV at 44.1 kHz (the fake device may deliver it at another rate; the context
- * resamples), 4 s of two steady tones, a whole number of periods of each so the loop is seamless.
- */
-function writeFakeMicWav(path: string): void {
-  const fs = 44100;
-  const n = 4 * fs;
-  const chans = CHANNELS.map(({ hz, amplitude }) => {
-    const x = new Int16Array(n);
-    for (let i = 0; i < n; i++) x[i] = Math.round(32767 * amplitude * Math.sin((2 * Math.PI * hz * i) / fs));
-    return x;
-  });
-  const w = new WaveFile();
-  w.fromScratch(2, fs, '16', chans);
-  writeFileSync(path, w.toBuffer());
-}
 
 function median(xs: number[]): number {
   const s = [...xs].sort((a, b) => a - b);
@@ -55,7 +37,8 @@ describe('live microphones (Chromium fake capture device)', () => {
 
   beforeAll(async () => {
     mkdirSync(resolve(root, 'test-results/browser'), { recursive: true });
-    writeFakeMicWav(WAV);
+    // 4 s of two steady tones, a whole number of periods of each
+    writeStereoToneWav(WAV, [[CHANNELS[0]!.hz, CHANNELS[0]!.amplitude], [CHANNELS[1]!.hz, CHANNELS[1]!.amplitude]], 4);
     browser = await launch(fakeMicArgs(WAV));
     page = await browser.newPage({ viewport: { width: 1500, height: 1000 } });
     watch = await watchPage(page);

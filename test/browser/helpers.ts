@@ -1,5 +1,7 @@
 /** Shared pieces of the browser tests: launching Debian's Chromium headless with the flags that work here. */
-import { chromium, type Browser, type LaunchOptions } from 'playwright';
+import { writeFileSync } from 'node:fs';
+import { chromium, type Browser, type LaunchOptions, type Page } from 'playwright';
+import wavefile from 'wavefile';
 
 /** Debian's Chromium (scripts/ensure-browser.mjs makes sure it exists), or ANCBENCH_CHROMIUM. */
 export const CHROMIUM = process.env.ANCBENCH_CHROMIUM || '/usr/bin/chromium';
@@ -71,4 +73,44 @@ export function panelValue(page: import('playwright').Page, selector: string): P
     const v = el?.dataset.value;
     return v ? Number(v) : NaN;
   }, selector);
+}
+
+/**
+ * A stereo 16-bit WAV for the fake capture device: one steady sine per channel ([hz, peak amplitude]),
+ * at 44.1 kHz (the device may deliver another rate; the context resamples). Choose frequencies with a
+ * whole number of periods in `seconds`, so the device's loop is seamless.
+ */
+export function writeStereoToneWav(path: string, channels: [[number, number], [number, number]], seconds: number): void {
+  const fs = 44100;
+  const n = Math.round(seconds * fs);
+  const data = channels.map(([hz, a]) => {
+    const x = new Int16Array(n);
+    for (let i = 0; i < n; i++) x[i] = Math.round(32767 * a * Math.sin((2 * Math.PI * hz * i) / fs));
+    return x;
+  });
+  // wavefile is CommonJS: its exports object is the default import under Node's ESM loader
+  const w = new (wavefile as unknown as typeof import('wavefile')).WaveFile();
+  w.fromScratch(2, fs, '16', data);
+  writeFileSync(path, w.toBuffer());
+}
+
+/** A name for the focused element, looking through shadow roots: its id, or name=value for radios. */
+export function focusedName(page: Page): Promise<string> {
+  return page.evaluate(() => {
+    let el: Element | null = document.activeElement;
+    while (el?.shadowRoot?.activeElement) el = el.shadowRoot.activeElement;
+    if (!el || el === document.body) return '';
+    const input = el as HTMLInputElement;
+    if (input.type === 'radio') return `${input.name}=${input.value}`;
+    return el.id || el.tagName.toLowerCase();
+  });
+}
+
+/** Press Tab until `name` has focus (at most `limit` presses); returns whether it got there. */
+export async function tabTo(page: Page, name: string, limit = 80): Promise<boolean> {
+  for (let i = 0; i < limit; i++) {
+    if ((await focusedName(page)) === name) return true;
+    await page.keyboard.press('Tab');
+  }
+  return (await focusedName(page)) === name;
 }

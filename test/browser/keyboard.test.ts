@@ -1,27 +1,6 @@
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import type { Browser, Page } from 'playwright';
-import { launch, panelValue } from './helpers.ts';
-
-/** A name for the focused element, looking through shadow roots: its id, or name=value for radios. */
-function focusedName(page: Page): Promise<string> {
-  return page.evaluate(() => {
-    let el: Element | null = document.activeElement;
-    while (el?.shadowRoot?.activeElement) el = el.shadowRoot.activeElement;
-    if (!el || el === document.body) return '';
-    const input = el as HTMLInputElement;
-    if (input.type === 'radio') return `${input.name}=${input.value}`;
-    return el.id || el.tagName.toLowerCase();
-  });
-}
-
-/** Press Tab until `name` has focus (at most `limit` presses); returns whether it got there. */
-async function tabTo(page: Page, name: string, limit = 80): Promise<boolean> {
-  for (let i = 0; i < limit; i++) {
-    if ((await focusedName(page)) === name) return true;
-    await page.keyboard.press('Tab');
-  }
-  return (await focusedName(page)) === name;
-}
+import { focusedName, launch, panelValue, tabTo } from './helpers.ts';
 
 function settings(page: Page): Promise<{ algorithm: string; stepSize: number; ceilingDbfs: number; adaptation: boolean }> {
   return page.evaluate(() => {

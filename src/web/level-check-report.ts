@@ -1,0 +1,144 @@
+/**
+ * The live level-cap check's report, as the user saves it: one JSON object and one self-contained
+ * HTML page (src/io/limits-report-html.ts, uPlot inlined), both downloaded through Blob links, so
+ * nothing leaves the machine.
+ *
+ * The JSON starts with the same six fields as `ancbench check-limits --json`, in the same order:
+ * `ceilingDbfs`, `maxSamplePeakDbfs`, `maxTruePeakDbtp`, `limiterMode`, `passed`, `events`; then the
+ * rest of the check's result like the command's report.json (the limiter's gain-reduction history
+ * under `history`, every event), and what only a live run has: `handedToOutput`, the live processor's
+ * own count of the samples it handed to the audio output, and the device. The live run has no
+ * scenario and no closed loop (`closedLoop: null`).
+ *
+ * `passed` holds only when the check passed and no sample handed to the output went above the
+ * ceiling or was not finite.
+ */
+import type { HandedToOutput } from '../engine/messages.ts';
+import type { LevelCapResult } from '../plant/level-cap-check.ts';
+import { renderLimitsReport } from '../io/limits-report-html.ts';
+import type { ReportAssets } from '../io/report-html.ts';
+
+export const REPORT_JSON_FILE = 'level-check.json';
+export const REPORT_HTML_FILE = 'level-check.html';
+
+/** The first six fields of the report, fixed names shared with the command line. */
+export const FIXED_REPORT_KEYS = ['ceilingDbfs', 'maxSamplePeakDbfs', 'maxTruePeakDbtp', 'limiterMode', 'passed', 'events'] as const;
+
+export interface LiveContext {
+  /** Output device label (or "system default"). */
+  outputDevice: string;
+  /** Error-mic device label, when the error mic was recorded. */
+  errorMicDevice: string | null;
+  sampleRate: number;
+  /** ISO time the check ended. */
+  finishedAt: string;
+}
+
+type Promoted = 'ceilingDbfs' | 'maxSamplePeakDbfs' | 'maxTruePeakDbtp' | 'limiterMode' | 'passed' | 'events' | 'reasons' | 'latencySamples' | 'maxGainReductionDb' | 'samplesOverCeiling' | 'nonFiniteOutputSamples' | 'truePeakToleranceDb' | 'ceiling' | 'history' | 'notes';
+
+export interface LiveLevelCheckReport {
+  ceilingDbfs: number;
+  maxSamplePeakDbfs: number;
+  maxTruePeakDbtp: number;
+  limiterMode: LevelCapResult['limiterMode'];
+  /** The check passed and every sample handed to the output stayed within the ceiling. */
+  passed: boolean;
+  /** Every event of the check (guard and limiter), time, cause, values, action. */
+  events: LevelCapResult['events'];
+  reasons: string[];
+  source: 'live';
+  live: LiveContext;
+  latencySamples: number;
+  maxGainReductionDb: number;
+  samplesOverCeiling: number;
+  nonFiniteOutputSamples: number;
+  truePeakToleranceDb: number | null;
+  ceiling: LevelCapResult['ceiling'];
+  /** The live processor's own count of what it handed to the audio output. */
+  handedToOutput: HandedToOutput;
+  check: Omit<LevelCapResult, Promoted>;
+  closedLoop: null;
+  notes: string[];
+  /** Per ~10 ms: test-signal level and peak, output sample and true peak, limiter gain reduction, error-mic peak. */
+  history: LevelCapResult['history'];
+}
+
+export function buildLevelCheckReport(r: LevelCapResult, handed: HandedToOutput, live: LiveContext): LiveLevelCheckReport {
+  const reasons = [...r.reasons];
+  if (handed.samplesOverCeiling > 0) {
+    reasons.push(`${handed.samplesOverCeiling} samples handed to the audio output exceeded the ${handed.ceilingDbfs.toFixed(2)} dBFS ceiling (largest ${handed.maxSamplePeakDbfs.toFixed(3)} dBFS)`);
+  }
+  if (handed.nonFinite > 0) reasons.push(`${handed.nonFinite} samples handed to the audio output were not finite`);
+  const {
+    ceilingDbfs, maxSamplePeakDbfs, maxTruePeakDbtp, limiterMode, passed: _p, events, reasons: _r, latencySamples, maxGainReductionDb,
+    samplesOverCeiling, nonFiniteOutputSamples, truePeakToleranceDb, ceiling, history, notes, ...check
+  } = r;
+  return {
+    ceilingDbfs,
+    maxSamplePeakDbfs,
+    maxTruePeakDbtp,
+    limiterMode,
+    passed: reasons.length === 0,
+    events,
+    reasons,
+    source: 'live',
+    live,
+    latencySamples,
+    maxGainReductionDb,
+    samplesOverCeiling,
+    nonFiniteOutputSamples,
+    truePeakToleranceDb,
+    ceiling,
+    handedToOutput: handed,
+    check,
+    closedLoop: null,
+    notes: [
+      ...notes,
+      `live run: ${handed.samples} samples handed to the audio output (${live.outputDevice}) were counted by the audio processor as they left it; what the amplifier and loudspeaker make of them is outside the check`,
+    ],
+    history,
+  };
+}
+
+/** JSON with null for NaN and ±Infinity and typed arrays as lists (the tool never writes NaN into JSON). */
+export function reportJson(value: unknown): string {
+  return JSON.stringify(
+    value,
+    (_k, v: unknown) => {
+      if (typeof v === 'number' && !Number.isFinite(v)) return null;
+      if (ArrayBuffer.isView(v) && !(v instanceof DataView)) return Array.from(v as unknown as ArrayLike<number>);
+      return v;
+    },
+    2,
+  );
+}
+
+let assets: Promise<ReportAssets> | null = null;
+
+/** uPlot's IIFE build and style sheet as text, for inlining into the saved page (a separate chunk, loaded on first use). */
+export function reportAssets(): Promise<ReportAssets> {
+  if (!assets) {
+    assets = Promise.all([import('uplot/dist/uPlot.iife.min.js?raw'), import('uplot/dist/uPlot.min.css?raw')]).then(([js, css]) => ({
+      uplotJs: js.default,
+      uplotCss: css.default,
+    }));
+  }
+  return assets;
+}
+
+/** The readable page of a report. */
+export async function levelCheckHtml(rep: LiveLevelCheckReport, result: LevelCapResult): Promise<string> {
+  const a = await reportAssets();
+  return renderLimitsReport(
+    {
+      scenario: `live output: ${rep.live.outputDevice}, ${rep.live.sampleRate} Hz`,
+      name: 'live loudspeaker output',
+      check: result,
+      closedLoop: null,
+      passed: rep.passed,
+      reasons: rep.reasons,
+      footer: `ancbench panel, live level-cap check, ${rep.live.finishedAt}. Samples handed to the audio output: ${rep.handedToOutput.samples}, ${rep.handedToOutput.samplesOverCeiling} above the ceiling, largest ${rep.handedToOutput.maxSamplePeakDbfs.toFixed(3)} dBFS.`,
+    },
+    a,
+  );
+}
