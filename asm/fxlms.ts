@@ -440,8 +440,9 @@ export function cupdateUnconstrained(wR: usize, wI: usize, fR: usize, fI: usize,
  * Glue between fft.js (interleaved float64 complex arrays in this memory) and the split float32
  * half spectra: the host runs the transforms, these loops move the data.
  *
- * packPair: z ← the full N-point spectrum A + i·B (N = 2P) of two Hermitian spectra given as half
- * spectra: Z[k] = A[k] + i·B[k], Z[N − k] = conj(A[k]) + i·conj(B[k]); its inverse is a + i·b.
+ * packPair: z ← conj(Z), Z the full N-point spectrum A + i·B (N = 2P) of two Hermitian spectra given
+ * as half spectra: Z[k] = A[k] + i·B[k], Z[N − k] = conj(A[k]) + i·conj(B[k]), whose inverse is
+ * a + i·b. The host takes the forward transform of conj(Z), N·conj(a + i·b), and scales it.
  */
 export function packPair(z: usize, aR: usize, aI: usize, bR: usize, bI: usize, P: i32): void {
   const N = 2 * P;
@@ -453,11 +454,11 @@ export function packPair(z: usize, aR: usize, aI: usize, bR: usize, bI: usize, P
     const yi = <f64>load<f32>(bI + o);
     const zo = z + (<usize>q << 4);
     store<f64>(zo, xr - yi);
-    store<f64>(zo, xi + yr, 8);
+    store<f64>(zo, -(xi + yr), 8);
     if (q > 0 && q < P) {
       const mo = z + (<usize>(N - q) << 4);
       store<f64>(mo, xr + yi);
-      store<f64>(mo, yr - xi, 8);
+      store<f64>(mo, xi - yr, 8);
     }
   }
 }

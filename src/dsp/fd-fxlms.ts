@@ -43,8 +43,9 @@ import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.
  * zero). The spectral loops (complex multiply-accumulate over partitions, the unconstrained update)
  * run either in TypeScript or in the WebAssembly SIMD kernel (asm/fxlms.ts; float32 spectra in its
  * memory). FFTs are fft.js on float64 scratch with every plan and buffer allocated here: its
- * `realTransform` fills the lower half only, it has no real inverse and `inverseTransform` divides by
- * N, so two real signals share one complex transform (Z = A + iB) wherever two are due together.
+ * `realTransform` fills the lower half only and it has no real inverse, so two real signals share one
+ * complex transform (Z = A + iB) wherever two are due together; inverses run as forward transforms of
+ * the conjugate, which spares `inverseTransform`'s division pass.
  */
 export type GradientConstraint = 'full' | 'alternating';
 export type FdPrecision = 'float32' | 'float64';
@@ -97,6 +98,8 @@ export class FdFxlmsController implements Controller {
   private readonly spec: Float64Array;
   private readonly zIn: Float64Array;
   private readonly zOut: Float64Array;
+  /** 1/N: the pair inverse leaves its output unscaled (see inversePair). */
+  private readonly invN: number;
   // split half spectra
   private readonly Xr: Real;
   private readonly Xi: Real;
@@ -179,6 +182,7 @@ export class FdFxlmsController implements Controller {
     const N = 2 * P;
     this.partitionSize = P;
     this.plan = new FFT(N);
+    this.invN = 1 / N;
     const KL = Math.ceil(this.taps / P);
     const KM = Math.ceil(this.modelTaps / P);
     const KX = Math.max(KL, KM);
@@ -344,7 +348,8 @@ export class FdFxlmsController implements Controller {
       const j2 = j + 1 < this.KL ? j + 1 : j;
       this.inversePair(this.Wr, this.Wi, j * bins, this.Wr, this.Wi, j2 * bins);
       for (let h = 0; h < 2 && j + h < this.KL; h++) {
-        for (let k = 0; k < P && (j + h) * P + k < n; k++) out[(j + h) * P + k] = z[2 * k + h]!;
+        const g = h === 0 ? this.invN : -this.invN; // zOut = N·conj(a + ib), see inversePair
+        for (let k = 0; k < P && (j + h) * P + k < n; k++) out[(j + h) * P + k] = g * z[2 * k + h]!;
       }
     }
     return n;
@@ -416,12 +421,13 @@ export class FdFxlmsController implements Controller {
     if (k) {
       const p = this.ptr;
       k.packPair(p.zIn, p.Yr, p.Yi, p.FSr, p.FSi, P);
-      this.plan.inverseTransform(this.zOut, this.zIn);
+      this.plan.transform(this.zOut, this.zIn);
     } else {
       this.inversePair(this.Yr, this.Yi, 0, this.FSr, this.FSi, 0);
     }
     const z = this.zOut;
-    for (let i = 0; i < n; i++) out[i] = z[2 * (P + i)]!;
+    const invN = this.invN;
+    for (let i = 0; i < n; i++) out[i] = invN * z[2 * (P + i)]!;
     if (!adapt) return;
 
     // 4. Filtered reference block, its running energy and the scaled error ε(n), placed straight
@@ -446,7 +452,7 @@ export class FdFxlmsController implements Controller {
       zi[2 * i + 1] = 0;
     }
     for (let i = 0; i < P; i++) {
-      fw[P + i] = z[2 * (P + i) + 1]!;
+      fw[P + i] = -invN * z[2 * (P + i) + 1]!;
       const f = fw[P + i]!; // rounded to the storage precision, as kept in the ring
       let old = pos - L;
       if (old < 0) old += R;
@@ -513,6 +519,7 @@ export class FdFxlmsController implements Controller {
   /** w_j ← lf·w_j − g_j (lf = leak[0]), g_j = first P of IFFT(conj(F_{b−j})·E); two partitions per complex inverse and forward. */
   private updateFull(): void {
     const lf = this.leak[0]!;
+    const invN = this.invN;
     const P = this.partitionSize;
     const N = 2 * P;
     const bins = this.bins;
@@ -553,12 +560,12 @@ export class FdFxlmsController implements Controller {
       for (let q = 0; q < P; q++) {
         let va = 0, vb = 0;
         if (q < lenA) {
-          wt[j * P + q] = lf * wt[j * P + q]! - z[2 * q]!;
+          wt[j * P + q] = lf * wt[j * P + q]! - invN * z[2 * q]!;
           va = wt[j * P + q]!;
           ea += va * va;
         }
         if (q < lenB) {
-          wt[(j + 1) * P + q] = lf * wt[(j + 1) * P + q]! - z[2 * q + 1]!;
+          wt[(j + 1) * P + q] = lf * wt[(j + 1) * P + q]! + invN * z[2 * q + 1]!;
           vb = wt[(j + 1) * P + q]!;
           eb += vb * vb;
         }
@@ -583,6 +590,7 @@ export class FdFxlmsController implements Controller {
    * unprojected tails stay bounded.
    */
   private updateAlternating(): void {
+    const invN = this.invN;
     const P = this.partitionSize;
     const N = 2 * P;
     const bins = this.bins;
@@ -604,7 +612,7 @@ export class FdFxlmsController implements Controller {
       const p = this.ptr;
       const cbb = two ? cb : ca;
       k.packPair(p.zIn, p.Wr + 4 * ca * bins, p.Wi + 4 * ca * bins, p.Wr + 4 * cbb * bins, p.Wi + 4 * cbb * bins, P);
-      this.plan.inverseTransform(this.zOut, this.zIn);
+      this.plan.transform(this.zOut, this.zIn);
     } else {
       this.inversePair(this.Wr, this.Wi, ca * bins, this.Wr, this.Wi, (two ? cb : ca) * bins);
     }
@@ -614,8 +622,8 @@ export class FdFxlmsController implements Controller {
     const lenB = cb === KL - 1 ? this.lastLen : P;
     let ea = 0, eb = 0;
     for (let q = 0; q < P; q++) {
-      const va = q < lenA ? z[2 * q]! : 0;
-      const vb = two && q < lenB ? z[2 * q + 1]! : 0;
+      const va = q < lenA ? invN * z[2 * q]! : 0;
+      const vb = two && q < lenB ? -invN * z[2 * q + 1]! : 0;
       zi[2 * q] = va;
       zi[2 * q + 1] = vb;
       ea += va * va;
@@ -682,8 +690,10 @@ export class FdFxlmsController implements Controller {
   }
 
   /**
-   * zOut ← IFFT(A + i·B) for two Hermitian spectra given as split half spectra:
-   * Re(zOut) = a, Im(zOut) = b. Z[k] = A[k] + i·B[k]; Z[N − k] = conj(A[k]) + i·conj(B[k]).
+   * The inverse of Z = A + i·B for two Hermitian spectra given as split half spectra, where
+   * Z[k] = A[k] + i·B[k] and Z[N − k] = conj(A[k]) + i·conj(B[k]), so that IFFT(Z) = a + i·b.
+   * Computed as zOut ← FFT(conj(Z)) = N·conj(IFFT(Z)): a = Re(zOut)/N, b = −Im(zOut)/N. The forward
+   * transform saves fft.js's division pass over the output; the readers scale by 1/N (invN).
    */
   private inversePair(ar: Real, ai: Real, ao: number, br: Real, bi: Real, bo: number): void {
     const P = this.partitionSize;
@@ -693,15 +703,16 @@ export class FdFxlmsController implements Controller {
       const xr = ar[ao + q]!, xi = ai[ao + q]!;
       const yr = br[bo + q]!, yi = bi[bo + q]!;
       zi[2 * q] = xr - yi;
-      zi[2 * q + 1] = xi + yr;
+      zi[2 * q + 1] = -(xi + yr);
       if (q > 0 && q < P) {
         const m = 2 * (N - q);
         zi[m] = xr + yi;
-        zi[m + 1] = yr - xi;
+        zi[m + 1] = xi - yr;
       }
     }
-    this.plan.inverseTransform(this.zOut, zi);
+    this.plan.transform(this.zOut, zi);
   }
+
 }
 
 /** acc = Σ_{j<K} H_j · X_{slot(head − j)} per bin (split spectra, X a ring of KX slots). */
