@@ -20,7 +20,8 @@
 //
 // 2. Stateless spectral loops for the partitioned frequency-domain FxLMS: complex multiply-accumulate
 //    over partitions and the unconstrained gradient update, on split (re, im) half spectra whose bin
-//    count is a multiple of 4.
+//    count is a multiple of 4, and the loops that move data between fft.js's interleaved float64
+//    arrays (the transforms themselves run in the host) and those split spectra.
 
 // ---------------------------------------------------------------------------------------------
 // 1. Time-domain FxLMS
