@@ -299,6 +299,16 @@ export class Engine {
   }
 
   /**
+   * End a probe: close the output gate at once, without the stop ramp, so that no tail of the
+   * controller's output follows the probe (a probe ends with its own fade-out). The next `process`
+   * in 'control' mode fades the controller in from silence.
+   */
+  endProbe(): void {
+    this.ramp.reset();
+    this.outputOn = false;
+  }
+
+  /**
    * One block: ref and err are the microphone samples of the same instants; out receives the
    * loudspeaker signal for those instants. n ≤ maxBlockSize (larger n is clamped: the host must
    * respect maxBlockSize). Non-finite input samples are replaced by silence in place by the guard.

@@ -190,7 +190,7 @@ export class PlantLoop {
   private readonly speaker: PolynomialNonlinearity | null;
   private readonly speakerOut: Float32Array;
 
-  constructor(sc: Scenario, opts: { wavs?: WavTable; secondaryPathModel?: Float32Array; startMode?: EngineMode } = {}) {
+  constructor(sc: Scenario, opts: { wavs?: WavTable; secondaryPathModel?: Float32Array; startMode?: EngineMode; standbyController?: ControllerConfig } = {}) {
     const fs = sc.sampleRate;
     const B = sc.blockSize;
     this.sampleRate = fs;
@@ -225,6 +225,7 @@ export class PlantLoop {
         highPassHz: hp,
         dcBlockerHz: 0, // the simulated speaker reproduces every frequency the scenario asks for
         startMode: opts.startMode ?? 'control',
+        ...(opts.standbyController ? { standbyController: opts.standbyController } : {}),
         ...(sc.guard === false ? { guard: false as const } : sc.guard ? { guard: sc.guard as EngineConfig['guard'] } : {}),
       });
     } catch (e) {
