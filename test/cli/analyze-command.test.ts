@@ -1,15 +1,14 @@
-import { afterAll, afterEach, beforeAll, beforeEach, describe, expect, it, vi } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import wavefile from 'wavefile';
 import { main } from '../../src/cli/main.ts';
 import { decodeWav, encodeWavFloat32, encodeWavInt16 } from '../../src/io/wav.ts';
+import { captureOutput, useCliSandbox } from '../helpers/cli.ts';
 
 let shared: string; // simulator output, made once
-let dir: string;
-let out: string[];
-let err: string[];
+const cli = useCliSandbox('ancbench-analyze-');
 
 // Broadband noise with a causal geometry: reference → error 12 ms, secondary path 5 ms.
 const scenario = {
@@ -29,30 +28,15 @@ const scenario = {
   outputCeilingDbfs: 0,
 };
 
-function mute() {
-  out = [];
-  err = [];
-  vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => (out.push(String(s)), true));
-  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => (err.push(String(s)), true));
-}
-
 beforeAll(async () => {
   shared = mkdtempSync(join(tmpdir(), 'ancbench-analyze-sim-'));
   writeFileSync(join(shared, 's.json'), JSON.stringify(scenario));
-  mute();
+  captureOutput(cli);
   expect(await main(['simulate', join(shared, 's.json'), '--out', join(shared, 'run')])).toBe(0);
   expect(await main(['identify', join(shared, 's.json'), '--out', join(shared, 'model.json')])).toBe(0);
   vi.restoreAllMocks();
 });
 afterAll(() => rmSync(shared, { recursive: true, force: true }));
-beforeEach(() => {
-  dir = mkdtempSync(join(tmpdir(), 'ancbench-analyze-'));
-  mute();
-});
-afterEach(() => {
-  vi.restoreAllMocks();
-  rmSync(dir, { recursive: true, force: true });
-});
 
 const signals = () => join(shared, 'run', 'signals.wav');
 /** The simulator's four channels: reference 0, error on 1, output 2, error off 3. */
@@ -63,9 +47,7 @@ function channels(): Float32Array[] {
 }
 
 function write(name: string, data: Uint8Array): string {
-  const p = join(dir, name);
-  writeFileSync(p, data);
-  return p;
+  return cli.file(data, name);
 }
 
 /** 24-bit integer PCM through the WAV library directly (ancbench writes only 16-bit and float). */
@@ -76,10 +58,10 @@ function int24(chans: Float32Array[], rate: number): Uint8Array {
 }
 
 async function analyzeJson(args: string[]): Promise<Record<string, any>> {
-  out = [];
+  cli.out = [];
   const code = await main(['analyze', ...args, '--json']);
-  expect(code, err.join('')).toBe(0);
-  return JSON.parse(out.join(''));
+  expect(code, cli.err.join('')).toBe(0);
+  return JSON.parse(cli.out.join(''));
 }
 
 describe('ancbench analyze', () => {
@@ -101,7 +83,7 @@ describe('ancbench analyze', () => {
     });
 
     it('should write analysis.json, bands.csv and a self-contained report.html with --out', async () => {
-      const o = join(dir, 'an');
+      const o = join(cli.dir, 'an');
       expect(await main(['analyze', ...simArgs(), '--out', o])).toBe(0);
       expect(readdirSync(o).sort()).toEqual(['analysis.json', 'bands.csv', 'report.html']);
       const j = JSON.parse(readFileSync(join(o, 'analysis.json'), 'utf8'));
@@ -111,12 +93,12 @@ describe('ancbench analyze', () => {
       expect(csv.length).toBe(1 + j.bands.length);
       const html = readFileSync(join(o, 'report.html'), 'utf8');
       expect(html).not.toMatch(/\b(?:src|href)\s*=\s*["']?(?:https?:)?\/\//i);
-      expect(out.join('')).toMatch(/wrote {9}.*analysis\.json, bands\.csv, report\.html/);
+      expect(cli.out.join('')).toMatch(/wrote {9}.*analysis\.json, bands\.csv, report\.html/);
     });
 
     it('should print a readable summary with the verdict and a band table', async () => {
       expect(await main(['analyze', ...simArgs(), '--model', join(shared, 'model.json')])).toBe(0);
-      const text = out.join('');
+      const text = cli.out.join('');
       expect(text).toMatch(/^causality {5}broadband \(margin 7\.\d\d ms\): The noise needs/m);
       expect(text).toMatch(/^coherence {5}bound \d+\.\d dB over 18–3548 Hz \(unweighted\)/m);
       expect(text).toMatch(/^ {2}250 Hz +-\d+\.\d +-\d+\.\d +\d+\.\d +\d+\.\d$/m);
@@ -161,17 +143,17 @@ describe('ancbench analyze', () => {
   describe('with bad input', () => {
     it('should ask for the channel of a multichannel file, naming the simulator\'s layout', async () => {
       expect(await main(['analyze', '--ref', signals(), '--ref-channel', '0', '--err', signals()])).toBe(2);
-      expect(err.join('')).toMatch(/--err ".*signals\.wav" has 5 channels: choose one with --err-channel N \(counted from 0\); the simulator's signals\.wav holds reference 0, error with control on 1, controller output 2, error with control off 3/);
+      expect(cli.err.join('')).toMatch(/--err ".*signals\.wav" has 5 channels: choose one with --err-channel N \(counted from 0\); the simulator's signals\.wav holds reference 0, error with control on 1, controller output 2, error with control off 3/);
     });
 
     it('should refuse a channel the file does not have', async () => {
       expect(await main(['analyze', '--ref', signals(), '--ref-channel', '5', '--err', signals(), '--err-channel', '3'])).toBe(2);
-      expect(err.join('')).toMatch(/--ref-channel must be from 0 to 4 \(".*signals\.wav" has 5 channels, counted from 0\), got 5/);
+      expect(cli.err.join('')).toMatch(/--ref-channel must be from 0 to 4 \(".*signals\.wav" has 5 channels, counted from 0\), got 5/);
     });
 
     it('should refuse the same channel as reference and error', async () => {
       expect(await main(['analyze', '--ref', signals(), '--ref-channel', '3', '--err', signals(), '--err-channel', '3'])).toBe(2);
-      expect(err.join('')).toMatch(/--ref and --err name the same channel \(3\)/);
+      expect(cli.err.join('')).toMatch(/--ref and --err name the same channel \(3\)/);
     });
 
     it('should refuse recordings of different sample rates, naming each', async () => {
@@ -179,38 +161,38 @@ describe('ancbench analyze', () => {
       const r = write('r.wav', encodeWavFloat32([c[0]!], 8000));
       const e = write('e.wav', encodeWavFloat32([c[3]!], 16000));
       expect(await main(['analyze', '--ref', r, '--err', e])).toBe(1);
-      expect(err.join('')).toMatch(/different sample rates \(--ref ".*r\.wav" 8000 Hz, --err ".*e\.wav" 16000 Hz\)/);
+      expect(cli.err.join('')).toMatch(/different sample rates \(--ref ".*r\.wav" 8000 Hz, --err ".*e\.wav" 16000 Hz\)/);
     });
 
     it('should name a damaged WAV file and a damaged model file', async () => {
       const whole = encodeWavFloat32([channels()[0]!], 8000);
       const cut = write('cut.wav', whole.slice(0, 5000));
       expect(await main(['analyze', '--ref', cut, '--err', signals(), '--err-channel', '3'])).toBe(1);
-      expect(err.join('')).toMatch(/cut\.wav: truncated/);
-      err.length = 0;
+      expect(cli.err.join('')).toMatch(/cut\.wav: truncated/);
+      cli.err.length = 0;
       const model = write('model.json', new TextEncoder().encode('{"format": "ancbench-path-model", "version": 1}'));
       expect(await main(['analyze', ...simArgs(), '--model', model])).toBe(1);
-      expect(err.join('')).toMatch(/--model ".*model\.json": invalid path model:\n {2}sampleRate: /);
+      expect(cli.err.join('')).toMatch(/--model ".*model\.json": invalid path model:\n {2}sampleRate: /);
     });
 
     it('should refuse a comparison start past the end of the recordings', async () => {
       expect(await main(['analyze', ...simArgs(), '--from', '3.9'])).toBe(2);
-      expect(err.join('')).toMatch(/--from 3\.9 s leaves less than 1024 samples of the error recordings \(4\.00 s long\)/);
+      expect(cli.err.join('')).toMatch(/--from 3\.9 s leaves less than 1024 samples of the error recordings \(4\.00 s long\)/);
     });
 
     it('should refuse missing flags and unknown values with status 2', async () => {
       expect(await main(['analyze', '--ref', signals()])).toBe(2);
-      expect(err.join('')).toMatch(/analyze needs --err/);
+      expect(cli.err.join('')).toMatch(/analyze needs --err/);
       expect(await main(['analyze', ...simArgs(), '--weighting', 'B'])).toBe(2);
-      expect(err.join('')).toMatch(/--weighting must be A, C or Z, got "B"/);
+      expect(cli.err.join('')).toMatch(/--weighting must be A, C or Z, got "B"/);
     });
 
     it('should leave nothing half-written when the output folder cannot be used', async () => {
       const blocker = write('taken', new TextEncoder().encode('a file, not a folder'));
       expect(await main(['analyze', ...simArgs(), '--out', blocker])).toBe(1);
-      expect(err.join('')).toMatch(/--out ".*taken" exists and is not a folder/);
-      expect(readdirSync(dir)).toEqual(['taken']);
-      expect(existsSync(join(dir, 'analysis.json'))).toBe(false);
+      expect(cli.err.join('')).toMatch(/--out ".*taken" exists and is not a folder/);
+      expect(readdirSync(cli.dir)).toEqual(['taken']);
+      expect(existsSync(join(cli.dir, 'analysis.json'))).toBe(false);
     });
   });
 });

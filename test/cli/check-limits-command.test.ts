@@ -1,25 +1,11 @@
-import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
-import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { describe, expect, it, vi } from 'vitest';
+import { readdirSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { main } from '../../src/cli/main.ts';
 import { OutputLimiter } from '../../src/dsp/limiter.ts';
+import { useCliSandbox } from '../helpers/cli.ts';
 
-let dir: string;
-let out: string[];
-let err: string[];
-
-beforeEach(() => {
-  dir = mkdtempSync(join(tmpdir(), 'ancbench-limits-'));
-  out = [];
-  err = [];
-  vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => (out.push(String(s)), true));
-  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => (err.push(String(s)), true));
-});
-afterEach(() => {
-  vi.restoreAllMocks();
-  rmSync(dir, { recursive: true, force: true });
-});
+const cli = useCliSandbox('ancbench-limits-');
 
 // A scenario fixture: 100 Hz tone at 8 kHz, FxNLMS, −6 dBFS ceiling.
 const good = {
@@ -36,20 +22,14 @@ const good = {
   outputCeilingDbfs: -6,
 };
 
-function file(value: unknown, name = 's.json'): string {
-  const p = join(dir, name);
-  writeFileSync(p, typeof value === 'string' ? value : JSON.stringify(value));
-  return p;
-}
-
 const QUICK = ['--ramp-s', '0.5'];
 
 describe('ancbench check-limits', () => {
   it('should print one JSON object with the documented fields and exit 0 when the cap held', async () => {
-    const code = await main(['check-limits', file(good), '--json', ...QUICK]);
+    const code = await main(['check-limits', cli.file(good), '--json', ...QUICK]);
     expect(code).toBe(0);
-    expect(out.length).toBe(1);
-    const j = JSON.parse(out[0]!);
+    expect(cli.out.length).toBe(1);
+    const j = JSON.parse(cli.out[0]!);
     expect(j.ceilingDbfs).toBe(-6);
     expect(j.limiterMode).toBe('zero-latency');
     expect(j.passed).toBe(true);
@@ -68,8 +48,8 @@ describe('ancbench check-limits', () => {
 
   it('should report the true-peak mode of a scenario and hold its true peak within 0.5 dB', async () => {
     const sc = { ...good, outputCeilingDbfs: undefined, limiter: { ceilingDbfs: -10, lookaheadMs: 1, truePeak: true } };
-    expect(await main(['check-limits', file(sc), '--json', '--no-closed-loop', ...QUICK])).toBe(0);
-    const j = JSON.parse(out.join(''));
+    expect(await main(['check-limits', cli.file(sc), '--json', '--no-closed-loop', ...QUICK])).toBe(0);
+    const j = JSON.parse(cli.out.join(''));
     expect(j.limiterMode).toBe('true-peak');
     expect(j.ceilingDbfs).toBe(-10);
     expect(j.maxTruePeakDbtp).toBeLessThanOrEqual(-10 + 0.5);
@@ -78,8 +58,8 @@ describe('ancbench check-limits', () => {
   });
 
   it('should write report.json and a self-contained report.html with --out', async () => {
-    const o = join(dir, 'out');
-    expect(await main(['check-limits', file(good), '--out', o, ...QUICK])).toBe(0);
+    const o = join(cli.dir, 'out');
+    expect(await main(['check-limits', cli.file(good), '--out', o, ...QUICK])).toBe(0);
     expect(readdirSync(o).sort()).toEqual(['report.html', 'report.json']);
     const j = JSON.parse(readFileSync(join(o, 'report.json'), 'utf8'));
     expect(j.history.timeS.length).toBeGreaterThan(100);
@@ -90,7 +70,7 @@ describe('ancbench check-limits', () => {
     expect(html).toContain('Limiter gain reduction');
     expect(html).toContain('output-at-ceiling');
     expect(html).toContain('-6.00 dBFS');
-    expect(out.join('')).toMatch(/verdict +PASSED/);
+    expect(cli.out.join('')).toMatch(/verdict +PASSED/);
   });
 
   it('should exit 3 and say why when the output stage lets samples past the cap', async () => {
@@ -98,9 +78,9 @@ describe('ancbench check-limits', () => {
     vi.spyOn(OutputLimiter.prototype, 'process').mockImplementation(function (x: Float32Array, y: Float32Array, n: number) {
       for (let i = 0; i < n; i++) y[i] = x[i]!;
     });
-    const code = await main(['check-limits', file(good), '--json', ...QUICK]);
+    const code = await main(['check-limits', cli.file(good), '--json', ...QUICK]);
     expect(code).toBe(3);
-    const j = JSON.parse(out.join(''));
+    const j = JSON.parse(cli.out.join(''));
     expect(j.passed).toBe(false);
     expect(j.samplesOverCeiling).toBeGreaterThan(0);
     expect(j.reasons.join(' ')).toMatch(/exceeded the -6\.00 dBFS ceiling/);
@@ -111,45 +91,45 @@ describe('ancbench check-limits', () => {
   });
 
   it('should apply the stricter SPL ceiling from a calibration file', async () => {
-    const cal = file({ points: [{ hz: 500, dbfs: -20, measuredDbSpl: 75 }, { hz: 1000, dbfs: -20, measuredDbSpl: 80 }], peakCeilingDbSpl: 90 }, 'cal.json');
-    expect(await main(['check-limits', file(good), '--json', '--calibration', cal, ...QUICK])).toBe(0);
-    const j = JSON.parse(out.join(''));
+    const cal = cli.file({ points: [{ hz: 500, dbfs: -20, measuredDbSpl: 75 }, { hz: 1000, dbfs: -20, measuredDbSpl: 80 }], peakCeilingDbSpl: 90 }, 'cal.json');
+    expect(await main(['check-limits', cli.file(good), '--json', '--calibration', cal, ...QUICK])).toBe(0);
+    const j = JSON.parse(cli.out.join(''));
     // 90 dB SPL peak − (100 dB + 3.01 dB) at 1 kHz = −13.01 dBFS, stricter than −6
     expect(j.ceilingDbfs).toBeCloseTo(90 - 100 - 10 * Math.log10(2), 9);
     expect(j.ceiling.limitedBy).toBe('spl');
     expect(j.maxSamplePeakDbfs).toBeLessThanOrEqual(j.ceilingDbfs);
     expect(j.check.maxPeakDbSplBound).toBeLessThanOrEqual(90 + 1e-9);
     expect(j.closedLoop.ceilingDbfs).toBe(j.ceilingDbfs);
-    out.length = 0;
+    cli.out.length = 0;
     // --spl-ceiling overrides the file
-    expect(await main(['check-limits', file(good), '--json', '--no-closed-loop', '--calibration', cal, '--spl-ceiling', '120', ...QUICK])).toBe(0);
-    expect(JSON.parse(out.join('')).ceiling.limitedBy).toBe('dbfs');
+    expect(await main(['check-limits', cli.file(good), '--json', '--no-closed-loop', '--calibration', cal, '--spl-ceiling', '120', ...QUICK])).toBe(0);
+    expect(JSON.parse(cli.out.join('')).ceiling.limitedBy).toBe('dbfs');
   });
 
   describe('with bad input', () => {
     it('should exit 1 naming the problem for a missing or invalid scenario or calibration file', async () => {
-      expect(await main(['check-limits', join(dir, 'nope.json')])).toBe(1);
-      expect(err.join('')).toMatch(/does not exist/);
-      err.length = 0;
-      expect(await main(['check-limits', file({ ...good, outputCeilingDbfs: 3 })])).toBe(1);
-      expect(err.join('')).toMatch(/outputCeilingDbfs/);
-      err.length = 0;
-      expect(await main(['check-limits', file(good), '--calibration', file({ points: [{ hz: 0, dbfs: -20, measuredDbSpl: 80 }], peakCeilingDbSpl: 90 }, 'c.json')])).toBe(1);
-      expect(err.join('')).toMatch(/calibration file .*points\[0\]\.hz/);
+      expect(await main(['check-limits', join(cli.dir, 'nope.json')])).toBe(1);
+      expect(cli.err.join('')).toMatch(/does not exist/);
+      cli.err.length = 0;
+      expect(await main(['check-limits', cli.file({ ...good, outputCeilingDbfs: 3 })])).toBe(1);
+      expect(cli.err.join('')).toMatch(/outputCeilingDbfs/);
+      cli.err.length = 0;
+      expect(await main(['check-limits', cli.file(good), '--calibration', cli.file({ points: [{ hz: 0, dbfs: -20, measuredDbSpl: 80 }], peakCeilingDbSpl: 90 }, 'c.json')])).toBe(1);
+      expect(cli.err.join('')).toMatch(/calibration file .*points\[0\]\.hz/);
     });
 
     it('should exit 2 for bad flags', async () => {
       expect(await main(['check-limits'])).toBe(2);
-      expect(await main(['check-limits', file(good), '--over-db', '50'])).toBe(2);
-      expect(err.join('')).toMatch(/--over-db must be a number from 0 to 40, got "50"/);
-      expect(await main(['check-limits', file(good), '--spl-ceiling', '90'])).toBe(2);
-      expect(err.join('')).toMatch(/--spl-ceiling needs --calibration/);
-      expect(await main(['check-limits', file(good), '--bogus'])).toBe(2);
+      expect(await main(['check-limits', cli.file(good), '--over-db', '50'])).toBe(2);
+      expect(cli.err.join('')).toMatch(/--over-db must be a number from 0 to 40, got "50"/);
+      expect(await main(['check-limits', cli.file(good), '--spl-ceiling', '90'])).toBe(2);
+      expect(cli.err.join('')).toMatch(/--spl-ceiling needs --calibration/);
+      expect(await main(['check-limits', cli.file(good), '--bogus'])).toBe(2);
     });
 
     it('should print its usage with --help', async () => {
       expect(await main(['check-limits', '--help'])).toBe(0);
-      expect(out.join('')).toMatch(/usage: ancbench check-limits <scenario\.json> \[--json\] \[--out DIR\]/);
+      expect(cli.out.join('')).toMatch(/usage: ancbench check-limits <scenario\.json> \[--json\] \[--out DIR\]/);
     });
   });
 });

@@ -1,28 +1,14 @@
-import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
-import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { describe, expect, it } from 'vitest';
+import { existsSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { main } from '../../src/cli/main.ts';
 import { parsePathModel } from '../../src/io/path-model-file.ts';
 import { bandMisalignmentDb } from '../../src/analysis/path-model.ts';
 import { buildPathResponse, denseResponse } from '../../src/plant/fractional-delay.ts';
 import { dbfsToPower } from '../../src/dsp/units.ts';
+import { useCliSandbox } from '../helpers/cli.ts';
 
-let dir: string;
-let out: string[];
-let err: string[];
-
-beforeEach(() => {
-  dir = mkdtempSync(join(tmpdir(), 'ancbench-identify-'));
-  out = [];
-  err = [];
-  vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => (out.push(String(s)), true));
-  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => (err.push(String(s)), true));
-});
-afterEach(() => {
-  vi.restoreAllMocks();
-  rmSync(dir, { recursive: true, force: true });
-});
+const cli = useCliSandbox('ancbench-identify-');
 
 // A known FIR secondary path, 5 ms of delay at 8 kHz, sensor noise 30 dB below a −20 dBFS white probe's
 // power at the error microphone.
@@ -44,22 +30,16 @@ const scenario = {
   outputCeilingDbfs: -6,
 };
 
-function file(value: unknown, name = 's.json'): string {
-  const p = join(dir, name);
-  writeFileSync(p, JSON.stringify(value));
-  return p;
-}
-
 describe('ancbench identify', () => {
   it('should identify the known FIR path below −20 dB misalignment with either method, and save a model that says so', async () => {
     // NLMS with a noise probe (Haykin, from memory) and sweep deconvolution (Farina, AES preprint 5093, 2000); the
     // −20 dB target over the excited band is the issue's. The saved taps are checked again here, against the
     // path built independently of the simulator's scenario code.
     for (const method of ['noise', 'sweep'] as const) {
-      out = [];
-      const modelPath = join(dir, `model-${method}.json`);
-      expect(await main(['identify', file(scenario), '--method', method, '--out', modelPath, '--json'])).toBe(0);
-      const j = JSON.parse(out.join(''));
+      cli.out = [];
+      const modelPath = join(cli.dir, `model-${method}.json`);
+      expect(await main(['identify', cli.file(scenario), '--method', method, '--out', modelPath, '--json'])).toBe(0);
+      const j = JSON.parse(cli.out.join(''));
       for (const k of ['delayMs', 'snrDb', 'misalignmentDb']) expect(j, k).toHaveProperty(k);
       expect(j.misalignmentDb, method).toBeLessThan(-20);
       expect(Math.abs(j.delayMs - 5)).toBeLessThanOrEqual(1000 / 8000);
@@ -73,8 +53,8 @@ describe('ancbench identify', () => {
   });
 
   it('should print a readable summary with the delay, SNR and misalignment', async () => {
-    expect(await main(['identify', file(scenario), '--duration', '1'])).toBe(0);
-    const text = out.join('');
+    expect(await main(['identify', cli.file(scenario), '--duration', '1'])).toBe(0);
+    const text = cli.out.join('');
     expect(text).toMatch(/^bulk delay {4}5\.00 ms {2}\(true path 5\.00 ms/m);
     expect(text).toMatch(/^SNR {11}\d+\.\d dB/m);
     expect(text).toMatch(/^misalignment {2}-\d+\.\d dB over 20–3600 Hz/m);
@@ -83,31 +63,31 @@ describe('ancbench identify', () => {
   it('should give a model the simulator can use in place of the true path', async () => {
     // The model file named by controller.modelFile drives the controller: with a good model the attenuation is
     // within 1 dB of the run with the true path (the project's tolerance).
-    const modelPath = join(dir, 'model.json');
-    expect(await main(['identify', file(scenario), '--out', modelPath])).toBe(0);
-    out = [];
-    expect(await main(['simulate', file(scenario, 'true.json'), '--json'])).toBe(0);
-    const withTrue = JSON.parse(out.join('')).attenuationDb;
-    out = [];
+    const modelPath = join(cli.dir, 'model.json');
+    expect(await main(['identify', cli.file(scenario), '--out', modelPath])).toBe(0);
+    cli.out = [];
+    expect(await main(['simulate', cli.file(scenario, 'true.json'), '--json'])).toBe(0);
+    const withTrue = JSON.parse(cli.out.join('')).attenuationDb;
+    cli.out = [];
     const usingModel = { ...scenario, controller: { ...scenario.controller, modelFile: 'model.json' } };
-    expect(await main(['simulate', file(usingModel, 'model-run.json'), '--json'])).toBe(0);
-    const withModel = JSON.parse(out.join('')).attenuationDb;
+    expect(await main(['simulate', cli.file(usingModel, 'model-run.json'), '--json'])).toBe(0);
+    const withModel = JSON.parse(cli.out.join('')).attenuationDb;
     expect(withTrue).toBeGreaterThan(20);
     expect(Math.abs(withModel - withTrue)).toBeLessThan(1);
     // The file really is what the controller uses: the same model with its polarity flipped (a 180° phase error,
     // beyond the ±90° FxLMS tolerates: Morgan, IEEE TASSP 28(4), 1980, from memory) cancels nothing.
     const model = JSON.parse(readFileSync(modelPath, 'utf8'));
-    writeFileSync(join(dir, 'flipped.json'), JSON.stringify({ ...model, taps: model.taps.map((v: number) => -v) }));
-    out = [];
+    writeFileSync(join(cli.dir, 'flipped.json'), JSON.stringify({ ...model, taps: model.taps.map((v: number) => -v) }));
+    cli.out = [];
     const flipped = { ...scenario, controller: { ...scenario.controller, modelFile: 'flipped.json' } };
-    expect(await main(['simulate', file(flipped, 'flipped-run.json'), '--json'])).toBe(0);
-    expect(JSON.parse(out.join('')).attenuationDb ?? -Infinity).toBeLessThan(3);
+    expect(await main(['simulate', cli.file(flipped, 'flipped-run.json'), '--json'])).toBe(0);
+    expect(JSON.parse(cli.out.join('')).attenuationDb ?? -Infinity).toBeLessThan(3);
   });
 
   it('should identify a scenario whose controller.modelFile does not exist yet (identify is what writes it)', async () => {
-    const s = file({ ...scenario, controller: { ...scenario.controller, modelFile: 'not-yet.json' } });
+    const s = cli.file({ ...scenario, controller: { ...scenario.controller, modelFile: 'not-yet.json' } });
     expect(await main(['identify', s, '--duration', '0.5', '--json'])).toBe(0);
-    expect(JSON.parse(out.join('')).notes.modelFile).toMatch(/"not-yet\.json" was not read/);
+    expect(JSON.parse(cli.out.join('')).notes.modelFile).toMatch(/"not-yet\.json" was not read/);
   });
 
   describe('with bad input', () => {
@@ -120,18 +100,18 @@ describe('ancbench identify', () => {
     ];
     for (const [what, flags, message] of cases) {
       it(`should refuse ${what} with one clear message and exit status 2`, async () => {
-        expect(await main(['identify', file(scenario), ...flags])).toBe(2);
-        expect(err.join('')).toMatch(message);
-        expect(out.join('')).toBe('');
+        expect(await main(['identify', cli.file(scenario), ...flags])).toBe(2);
+        expect(cli.err.join('')).toMatch(message);
+        expect(cli.out.join('')).toBe('');
       });
     }
 
     it('should refuse a missing scenario and write no model', async () => {
-      const modelPath = join(dir, 'm', 'model.json');
-      expect(await main(['identify', join(dir, 'missing.json'), '--out', modelPath])).toBe(1);
-      expect(err.join('')).toMatch(/scenario file ".*missing\.json" does not exist/);
-      expect(existsSync(join(dir, 'm'))).toBe(false);
-      expect(readdirSync(dir)).toEqual([]);
+      const modelPath = join(cli.dir, 'm', 'model.json');
+      expect(await main(['identify', join(cli.dir, 'missing.json'), '--out', modelPath])).toBe(1);
+      expect(cli.err.join('')).toMatch(/scenario file ".*missing\.json" does not exist/);
+      expect(existsSync(join(cli.dir, 'm'))).toBe(false);
+      expect(readdirSync(cli.dir)).toEqual([]);
     });
   });
 });

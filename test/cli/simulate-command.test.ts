@@ -1,26 +1,12 @@
-import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
-import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync, existsSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { describe, expect, it } from 'vitest';
+import { readdirSync, readFileSync, writeFileSync, existsSync } from 'node:fs';
 import { join } from 'node:path';
 import { main } from '../../src/cli/main.ts';
 import { decodeWav, encodeWavInt16 } from '../../src/io/wav.ts';
 import { createPathModel, serializePathModel } from '../../src/io/path-model-file.ts';
+import { useCliSandbox } from '../helpers/cli.ts';
 
-let dir: string;
-let out: string[];
-let err: string[];
-
-beforeEach(() => {
-  dir = mkdtempSync(join(tmpdir(), 'ancbench-cli-'));
-  out = [];
-  err = [];
-  vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => (out.push(String(s)), true));
-  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => (err.push(String(s)), true));
-});
-afterEach(() => {
-  vi.restoreAllMocks();
-  rmSync(dir, { recursive: true, force: true });
-});
+const cli = useCliSandbox('ancbench-cli-');
 
 const good = {
   schemaVersion: 1,
@@ -34,18 +20,12 @@ const good = {
   controller: { algorithm: 'fxnlms', taps: 16, stepSize: 0.01 },
 };
 
-function scenarioFile(value: unknown, name = 's.json'): string {
-  const p = join(dir, name);
-  writeFileSync(p, typeof value === 'string' ? value : JSON.stringify(value));
-  return p;
-}
-
 describe('ancbench simulate', () => {
   describe('with a valid scenario', () => {
     it('should print one JSON object with the documented keys', async () => {
-      const code = await main(['simulate', scenarioFile(good), '--json']);
+      const code = await main(['simulate', cli.file(good), '--json']);
       expect(code).toBe(0);
-      const j = JSON.parse(out.join(''));
+      const j = JSON.parse(cli.out.join(''));
       for (const k of ['attenuationDb', 'convergenceS', 'wienerBoundDb', 'peakOutputDbfs', 'diverged']) expect(j).toHaveProperty(k);
       expect(j.stamp).toMatchObject({ tool: 'ancbench', schemaVersion: 1, seed: 1 });
       expect(j.stamp.scenarioSha256).toMatch(/^[0-9a-f]{64}$/);
@@ -53,8 +33,8 @@ describe('ancbench simulate', () => {
     });
 
     it('should write summary, CSV, report and a float WAV whose first four channels keep their documented order', async () => {
-      const o = join(dir, 'out');
-      expect(await main(['simulate', scenarioFile(good), '--out', o])).toBe(0);
+      const o = join(cli.dir, 'out');
+      expect(await main(['simulate', cli.file(good), '--out', o])).toBe(0);
       expect(readdirSync(o).sort()).toEqual(['attenuation.csv', 'report.html', 'signals.wav', 'summary.json']);
       const w = decodeWav(new Uint8Array(readFileSync(join(o, 'signals.wav'))));
       expect(w.channels.length).toBe(5);
@@ -70,17 +50,17 @@ describe('ancbench simulate', () => {
 
     it('should play a WAV source given relative to the scenario file', async () => {
       const tone = new Float32Array(8000).map((_, i) => 0.2 * Math.sin((2 * Math.PI * 80 * i) / 8000));
-      writeFileSync(join(dir, 'hum.wav'), encodeWavInt16([tone], 8000));
-      const code = await main(['simulate', scenarioFile({ ...good, sources: [{ kind: 'wav', file: 'hum.wav', loop: true }] }), '--json']);
+      writeFileSync(join(cli.dir, 'hum.wav'), encodeWavInt16([tone], 8000));
+      const code = await main(['simulate', cli.file({ ...good, sources: [{ kind: 'wav', file: 'hum.wav', loop: true }] }), '--json']);
       expect(code).toBe(0);
-      expect(JSON.parse(out.join('')).attenuationDb).toBeGreaterThan(10);
+      expect(JSON.parse(cli.out.join('')).attenuationDb).toBeGreaterThan(10);
     });
   });
 
   describe('with a secondary-path model file', () => {
     function modelFile(taps: number[], sampleRate = 8000): string {
       const m = createPathModel({ taps, sampleRate, method: 'imported', quality: { snrDb: null } });
-      const p = join(dir, 'model.json');
+      const p = join(cli.dir, 'model.json');
       writeFileSync(p, serializePathModel(m));
       return 'model.json';
     }
@@ -88,13 +68,13 @@ describe('ancbench simulate', () => {
     it('should control with a good model and fail with a sign-flipped one', async () => {
       const truth = new Array(41).fill(0);
       truth[40] = 0.8; // the true path: 5 ms at 8 kHz, gain 0.8
-      scenarioFile({ ...good, controller: { ...good.controller, modelFile: modelFile(truth) } }, 'a.json');
-      expect(await main(['simulate', join(dir, 'a.json'), '--json'])).toBe(0);
-      const okAtt = JSON.parse(out.join('')).attenuationDb;
-      out.length = 0;
-      scenarioFile({ ...good, controller: { ...good.controller, modelFile: modelFile(truth.map((v) => -v)) } }, 'b.json');
-      expect(await main(['simulate', join(dir, 'b.json'), '--json'])).toBe(0);
-      const flipped = JSON.parse(out.join(''));
+      cli.file({ ...good, controller: { ...good.controller, modelFile: modelFile(truth) } }, 'a.json');
+      expect(await main(['simulate', join(cli.dir, 'a.json'), '--json'])).toBe(0);
+      const okAtt = JSON.parse(cli.out.join('')).attenuationDb;
+      cli.out.length = 0;
+      cli.file({ ...good, controller: { ...good.controller, modelFile: modelFile(truth.map((v) => -v)) } }, 'b.json');
+      expect(await main(['simulate', join(cli.dir, 'b.json'), '--json'])).toBe(0);
+      const flipped = JSON.parse(cli.out.join(''));
       expect(okAtt).toBeGreaterThan(20);
       // the wrong-signed model makes the error grow; the guard mutes the output and says why
       expect(flipped.diverged).toBe(true);
@@ -103,9 +83,9 @@ describe('ancbench simulate', () => {
     });
 
     it('should refuse a model of another sample rate, naming both rates', async () => {
-      const code = await main(['simulate', scenarioFile({ ...good, controller: { ...good.controller, modelFile: modelFile([0, 1], 48000) } })]);
+      const code = await main(['simulate', cli.file({ ...good, controller: { ...good.controller, modelFile: modelFile([0, 1], 48000) } })]);
       expect(code).toBe(1);
-      expect(err.join('')).toMatch(/controller\.modelFile "model\.json".*48000.*8000|controller\.modelFile "model\.json".*8000.*48000/s);
+      expect(cli.err.join('')).toMatch(/controller\.modelFile "model\.json".*48000.*8000|controller\.modelFile "model\.json".*8000.*48000/s);
     });
   });
 
@@ -122,45 +102,45 @@ describe('ancbench simulate', () => {
     ];
     for (const [what, value, message] of cases) {
       it(`should name the problem for ${what}, exit non-zero and write nothing`, async () => {
-        const o = join(dir, 'out');
-        const code = await main(['simulate', scenarioFile(value), '--out', o]);
+        const o = join(cli.dir, 'out');
+        const code = await main(['simulate', cli.file(value), '--out', o]);
         expect(code).not.toBe(0);
-        expect(err.join('')).toMatch(message);
+        expect(cli.err.join('')).toMatch(message);
         expect(existsSync(o)).toBe(false);
-        expect(out.join('')).toBe('');
+        expect(cli.out.join('')).toBe('');
       });
     }
 
     it('should refuse an unreadable (damaged) WAV with a clear message', async () => {
-      writeFileSync(join(dir, 'bad.wav'), 'RIFF\x10\x00\x00\x00WAVEjunkjunk');
-      const code = await main(['simulate', scenarioFile({ ...good, sources: [{ kind: 'wav', file: 'bad.wav' }] })]);
+      writeFileSync(join(cli.dir, 'bad.wav'), 'RIFF\x10\x00\x00\x00WAVEjunkjunk');
+      const code = await main(['simulate', cli.file({ ...good, sources: [{ kind: 'wav', file: 'bad.wav' }] })]);
       expect(code).toBe(1);
-      expect(err.join('')).toMatch(/bad\.wav.*(no "fmt " chunk|not a valid WAV)/);
+      expect(cli.err.join('')).toMatch(/bad\.wav.*(no "fmt " chunk|not a valid WAV)/);
     });
 
     it('should refuse a WAV at another sample rate, naming both rates', async () => {
-      writeFileSync(join(dir, 'fast.wav'), encodeWavInt16([new Float32Array(100)], 44100));
-      const code = await main(['simulate', scenarioFile({ ...good, sources: [{ kind: 'wav', file: 'fast.wav' }] })]);
+      writeFileSync(join(cli.dir, 'fast.wav'), encodeWavInt16([new Float32Array(100)], 44100));
+      const code = await main(['simulate', cli.file({ ...good, sources: [{ kind: 'wav', file: 'fast.wav' }] })]);
       expect(code).toBe(1);
-      expect(err.join('')).toMatch(/44100 Hz but the scenario runs at 8000 Hz/);
+      expect(cli.err.join('')).toMatch(/44100 Hz but the scenario runs at 8000 Hz/);
     });
 
     it('should refuse an unknown option with the usage text', async () => {
-      const code = await main(['simulate', scenarioFile(good), '--frobnicate']);
+      const code = await main(['simulate', cli.file(good), '--frobnicate']);
       expect(code).toBe(2);
-      expect(err.join('')).toMatch(/Unknown option '--frobnicate'[\s\S]*usage: ancbench simulate/);
+      expect(cli.err.join('')).toMatch(/Unknown option '--frobnicate'[\s\S]*usage: ancbench simulate/);
     });
 
     it('should refuse a file that does not exist', async () => {
-      expect(await main(['simulate', join(dir, 'missing.json')])).toBe(1);
-      expect(err.join('')).toMatch(/scenario file ".*missing\.json" does not exist/);
+      expect(await main(['simulate', join(cli.dir, 'missing.json')])).toBe(1);
+      expect(cli.err.join('')).toMatch(/scenario file ".*missing\.json" does not exist/);
     });
 
     it('should leave an existing output folder as it was when a run fails', async () => {
-      const o = join(dir, 'keep');
-      expect(await main(['simulate', scenarioFile(good), '--out', o])).toBe(0);
+      const o = join(cli.dir, 'keep');
+      expect(await main(['simulate', cli.file(good), '--out', o])).toBe(0);
       const before = readFileSync(join(o, 'summary.json'), 'utf8');
-      expect(await main(['simulate', scenarioFile({ ...good, seed: -1 }), '--out', o])).toBe(1);
+      expect(await main(['simulate', cli.file({ ...good, seed: -1 }), '--out', o])).toBe(1);
       expect(readFileSync(join(o, 'summary.json'), 'utf8')).toBe(before);
       expect(readdirSync(o).filter((f) => f.startsWith('.'))).toEqual([]);
     });
