@@ -1,48 +1,15 @@
 import { describe, it, expect } from 'vitest';
-import { setFlagsFromString, getHeapSpaceStatistics } from 'node:v8';
-import { runInNewContext } from 'node:vm';
 import { OutputLimiter } from '../../src/dsp/limiter.ts';
 import { GainRamp } from '../../src/dsp/gain-ramp.ts';
 import { HighPass } from '../../src/dsp/highpass.ts';
 import { DivergenceGuard, GuardBlockInfo } from '../../src/engine/guard.ts';
 import { EventRing, createEventBatch } from '../../src/engine/events.ts';
 import { Random } from '../../src/dsp/random.ts';
+import { HEAP_BUDGET_BYTES, heapGrowth } from '../helpers/heap.ts';
 
-// No allocation per block (ancbench rule for src/dsp and the engine's real-time path, DESIGN.md):
-// a garbage collection is forced, the blocks run, and the young generation ("new space", where
-// short-lived objects are born) is read before any further collection could hide garbage; it holds
-// far more than the budget. Old space is not counted: the JIT and feedback data grow it now and
-// then, unrelated to the code under test. The smallest growth of five rounds counts, so a round
-// disturbed by the JIT does not decide. Any allocation made every block is ≥ 12 bytes, i.e. ≥ 48 kB
-// over 4000 blocks, against a 16 kB budget (4 bytes per block: room for the measurement itself,
-// about 2–3 kB, and for the rare re-optimisation). A control step that allocates proves the
-// harness sees it.
-// Doubles the test itself keeps live sit in object fields: a double in a captured `let` is boxed
-// anew on every store.
-
-setFlagsFromString('--expose-gc');
-const gc = runInNewContext('gc') as () => void;
-
-const BLOCKS = 4000;
-const ROUNDS = 5;
-const BUDGET_BYTES = 16 * 1024;
-
-function newSpaceUsed(): number {
-  for (const s of getHeapSpaceStatistics()) if (s.space_name === 'new_space') return s.space_used_size;
-  throw new Error('V8 reports no new_space');
-}
-
-function heapGrowth(step: () => void): number {
-  for (let i = 0; i < BLOCKS; i++) step(); // warm-up
-  let smallest = Infinity;
-  for (let r = 0; r < ROUNDS; r++) {
-    gc();
-    const before = newSpaceUsed();
-    for (let i = 0; i < BLOCKS; i++) step();
-    smallest = Math.min(smallest, newSpaceUsed() - before);
-  }
-  return smallest;
-}
+// No allocation per block (ancbench rule for src/dsp and the engine's real-time path, DESIGN.md),
+// measured by the new-space harness in test/helpers/heap.ts; the control step proves it sees an
+// allocation.
 
 const FS = 48000;
 const N = 128;
@@ -58,7 +25,7 @@ describe('per-block allocation', () => {
     const growth = heapGrowth(() => {
       sink[0] = [1, 2];
     });
-    expect(growth).toBeGreaterThan(BUDGET_BYTES);
+    expect(growth).toBeGreaterThan(HEAP_BUDGET_BYTES);
   });
 
   it('should be nil for the limiter in every mode, with loud and non-finite input', () => {
@@ -75,7 +42,7 @@ describe('per-block allocation', () => {
         st.readouts += lim.gainReductionDb + lim.maxTruePeak + lim.nonFiniteCount + lim.blockMaxGainReductionDb;
       });
       expect(Number.isFinite(st.readouts)).toBe(true);
-      expect(growth).toBeLessThan(BUDGET_BYTES);
+      expect(growth).toBeLessThan(HEAP_BUDGET_BYTES);
     }
   });
 
@@ -112,7 +79,7 @@ describe('per-block allocation', () => {
     });
     expect(actions).toBeGreaterThan(0);
     expect(ring.pushed).toBeGreaterThan(10);
-    expect(growth).toBeLessThan(BUDGET_BYTES);
+    expect(growth).toBeLessThan(HEAP_BUDGET_BYTES);
   });
 
   it('should be nil for the whole output chain: high-pass → ramp → limiter', () => {
@@ -131,6 +98,6 @@ describe('per-block allocation', () => {
       lim.process(y, y, N);
       k++;
     });
-    expect(growth).toBeLessThan(BUDGET_BYTES);
+    expect(growth).toBeLessThan(HEAP_BUDGET_BYTES);
   });
 });

@@ -1,44 +1,18 @@
 import { describe, it, expect } from 'vitest';
-import { setFlagsFromString, getHeapSpaceStatistics } from 'node:v8';
-import { runInNewContext } from 'node:vm';
 import { LevelCapCheck } from '../../src/plant/level-cap-check.ts';
 import { createEventBatch } from '../../src/engine/events.ts';
+import { HEAP_BLOCKS, HEAP_BUDGET_BYTES, heapGrowth } from '../helpers/heap.ts';
 
 // No allocation per block (DESIGN.md: the AudioWorklet drives `process` on the audio thread).
-// Method as in test/engine/guard-heap.test.ts: a collection is forced, blocks run, and the growth of
-// V8's young generation ("new space") is read before another collection could hide garbage; the
-// smallest growth of five rounds counts. Any per-block allocation (≥ 12 bytes) over 4000 blocks is
-// ≥ 48 kB, against a 16 kB budget. A control step that allocates proves the harness sees it.
+// Measured by the new-space harness in test/helpers/heap.ts: any per-block allocation (≥ 12 bytes) over
+// 4000 blocks is ≥ 48 kB, against a 16 kB budget. A control step that allocates proves the harness sees it.
 
-setFlagsFromString('--expose-gc');
-const gc = runInNewContext('gc') as () => void;
-
-const BLOCKS = 4000;
-const ROUNDS = 5;
-const BUDGET_BYTES = 16 * 1024;
 const N = 16;
-
-function newSpaceUsed(): number {
-  for (const s of getHeapSpaceStatistics()) if (s.space_name === 'new_space') return s.space_used_size;
-  throw new Error('V8 reports no new_space');
-}
-
-function heapGrowth(step: () => void): number {
-  for (let i = 0; i < BLOCKS; i++) step();
-  let smallest = Infinity;
-  for (let r = 0; r < ROUNDS; r++) {
-    gc();
-    const before = newSpaceUsed();
-    for (let i = 0; i < BLOCKS; i++) step();
-    smallest = Math.min(smallest, newSpaceUsed() - before);
-  }
-  return smallest;
-}
 
 describe('LevelCapCheck per-block allocation', () => {
   it('should be visible to the harness when a step allocates (control)', () => {
     const sink: number[][] = [[]];
-    expect(heapGrowth(() => (sink[0] = [1, 2]))).toBeGreaterThan(BUDGET_BYTES);
+    expect(heapGrowth(() => (sink[0] = [1, 2]))).toBeGreaterThan(HEAP_BUDGET_BYTES);
   });
 
   it('should be nil while the check ramps tone, noise and the adversarial signal, with error-mic input and event draining', () => {
@@ -68,10 +42,10 @@ describe('LevelCapCheck per-block allocation', () => {
     }
     // 24 000 blocks of 16 samples at 8 kHz = 48 s: the three 15.75 s kinds are all crossed while measured
     const chk = config(15);
-    expect(chk.totalSamples).toBeGreaterThan(5 * BLOCKS * N);
-    expect(chk.totalSamples).toBeLessThan(6 * BLOCKS * N);
+    expect(chk.totalSamples).toBeGreaterThan(5 * HEAP_BLOCKS * N);
+    expect(chk.totalSamples).toBeLessThan(6 * HEAP_BLOCKS * N);
     const growth = heapGrowth(() => block(chk));
-    expect(growth).toBeLessThan(BUDGET_BYTES);
+    expect(growth).toBeLessThan(HEAP_BUDGET_BYTES);
     const r = chk.result();
     expect(r.samplesOverCeiling).toBe(0);
     expect(r.nonFiniteInputSamples).toBe(3); // the adversarial hold was reached while measuring
