@@ -11,6 +11,7 @@ import { TruePeakMeter } from '../dsp/true-peak.ts';
 import { amplitudeToDb } from '../dsp/units.ts';
 import { InputError, readJson, writeOutputs } from '../io/files-node.ts';
 import { fixed, renderLimitsReport, type ClosedLoopCap } from '../io/limits-report-html.ts';
+import { buildLimitsReport, type LimitsReportFields } from '../io/limits-report.ts';
 import { readReportAssets, REPORT_FILE } from '../io/report-html-node.ts';
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
 import { levelCapConfigFromScenario, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, type LevelCapResult, type TestSignalSettings } from '../plant/level-cap-check.ts';
@@ -49,27 +50,12 @@ Exit status: 0 when the cap held, 3 when it was exceeded, 1 for a bad file, 2 fo
 export const EXIT_CAP_EXCEEDED = 3;
 
 /** The report (report.json; `--json` prints it without the history). The first six fields are fixed names. */
-export interface CheckLimitsReport {
-  ceilingDbfs: number;
-  maxSamplePeakDbfs: number;
-  maxTruePeakDbtp: number;
-  limiterMode: LevelCapResult['limiterMode'];
+export interface CheckLimitsReport extends LimitsReportFields {
   /** The check and the closed loop both held the cap. */
   passed: boolean;
-  /** Events of the level-cap check. */
-  events: LevelCapResult['events'];
-  reasons: string[];
   scenario: string;
   name: string | null;
-  latencySamples: number;
-  maxGainReductionDb: number;
-  samplesOverCeiling: number;
-  nonFiniteOutputSamples: number;
-  truePeakToleranceDb: number | null;
-  ceiling: LevelCapResult['ceiling'];
-  check: Omit<LevelCapResult, 'ceilingDbfs' | 'maxSamplePeakDbfs' | 'maxTruePeakDbtp' | 'limiterMode' | 'passed' | 'events' | 'reasons' | 'latencySamples' | 'maxGainReductionDb' | 'samplesOverCeiling' | 'nonFiniteOutputSamples' | 'truePeakToleranceDb' | 'ceiling' | 'history' | 'notes'>;
   closedLoop: Omit<ClosedLoopCap, 'peakTimeline'> | null;
-  notes: string[];
   history?: LevelCapResult['history'];
   stamp: Stamp;
 }
@@ -165,45 +151,20 @@ export function closedLoopAgainstCap(sc: Scenario, ceilingDbfs: number, truePeak
 }
 
 export function buildReport(path: string, sc: Scenario, r: LevelCapResult, cl: ClosedLoopCap | null, st: Stamp): CheckLimitsReport {
-  const reasons = [...r.reasons];
+  const moreReasons: string[] = [];
   if (cl && !cl.withinCap) {
-    reasons.push(
+    moreReasons.push(
       `the closed loop's output exceeded the cap: ${cl.samplesOverCeiling} samples above ${cl.ceilingDbfs.toFixed(2)} dBFS, ${cl.nonFiniteOutputSamples} non-finite, true peak ${fixed(cl.truePeakDbtp, 2)} dBTP`,
     );
   }
-  const {
-    ceilingDbfs, maxSamplePeakDbfs, maxTruePeakDbtp, limiterMode, passed: _p, events, reasons: _r, latencySamples, maxGainReductionDb,
-    samplesOverCeiling, nonFiniteOutputSamples, truePeakToleranceDb, ceiling, history, notes, ...check
-  } = r;
-  const notesOut = [...notes];
-  if (cl && ceiling.limitedBy === 'spl') notesOut.push(`the closed loop ran with the SPL-derived ceiling ${ceilingDbfs.toFixed(2)} dBFS instead of the scenario's ${ceiling.dbfsCeiling} dBFS`);
+  const moreNotes: string[] = [];
+  if (cl && r.ceiling.limitedBy === 'spl') moreNotes.push(`the closed loop ran with the SPL-derived ceiling ${r.ceilingDbfs.toFixed(2)} dBFS instead of the scenario's ${r.ceiling.dbfsCeiling} dBFS`);
   let closedLoop: CheckLimitsReport['closedLoop'] = null;
   if (cl) {
     const { peakTimeline: _t, ...rest } = cl;
     closedLoop = rest;
   }
-  return {
-    ceilingDbfs,
-    maxSamplePeakDbfs,
-    maxTruePeakDbtp,
-    limiterMode,
-    passed: reasons.length === 0,
-    events,
-    reasons,
-    scenario: path,
-    name: sc.name ?? null,
-    latencySamples,
-    maxGainReductionDb,
-    samplesOverCeiling,
-    nonFiniteOutputSamples,
-    truePeakToleranceDb,
-    ceiling,
-    check,
-    closedLoop,
-    notes: notesOut,
-    history,
-    stamp: st,
-  };
+  return buildLimitsReport(r, { moreReasons, origin: { scenario: path, name: sc.name ?? null }, closedLoop, moreNotes, tail: { stamp: st } });
 }
 
 export function readableSummary(rep: CheckLimitsReport): string {

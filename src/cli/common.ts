@@ -3,6 +3,9 @@ import { readFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { SCENARIO_SCHEMA_VERSION } from '../plant/scenario.ts';
 
+// safeJson lives in src/io/json.ts (browser-safe); re-exported for the commands.
+export { safeJson } from '../io/json.ts';
+
 export class UsageError extends Error {
   constructor(message: string) {
     super(message);
@@ -29,22 +32,6 @@ export interface Stamp {
 
 export function stamp(command: string, seed: number, sha256: string): Stamp {
   return { tool: 'ancbench', version: toolVersion(), schemaVersion: SCENARIO_SCHEMA_VERSION, seed, scenarioSha256: sha256, command };
-}
-
-/**
- * JSON text in which no number is NaN or ±Infinity: such values become null (callers add a note
- * with the reason beside the field). Typed arrays become plain arrays.
- */
-export function safeJson(value: unknown, indent = 2): string {
-  return JSON.stringify(
-    value,
-    (_k, v: unknown) => {
-      if (typeof v === 'number' && !Number.isFinite(v)) return null;
-      if (ArrayBuffer.isView(v) && !(v instanceof DataView)) return Array.from(v as unknown as ArrayLike<number>);
-      return v;
-    },
-    indent,
-  );
 }
 
 export function fmtDb(v: number | null | undefined, digits = 1): string {

@@ -16,13 +16,15 @@
 import type { HandedToOutput } from '../engine/messages.ts';
 import type { LevelCapResult } from '../plant/level-cap-check.ts';
 import { renderLimitsReport } from '../io/limits-report-html.ts';
+import { safeJson } from '../io/json.ts';
+import { buildLimitsReport, type LimitsReportFields } from '../io/limits-report.ts';
 import type { ReportAssets } from '../io/report-html.ts';
 
 export const REPORT_JSON_FILE = 'level-check.json';
 export const REPORT_HTML_FILE = 'level-check.html';
 
 /** The first six fields of the report, fixed names shared with the command line. */
-export const FIXED_REPORT_KEYS = ['ceilingDbfs', 'maxSamplePeakDbfs', 'maxTruePeakDbtp', 'limiterMode', 'passed', 'events'] as const;
+export { FIXED_REPORT_KEYS } from '../io/limits-report.ts';
 
 export interface LiveContext {
   /** Output device label (or "system default"). */
@@ -34,83 +36,38 @@ export interface LiveContext {
   finishedAt: string;
 }
 
-type Promoted = 'ceilingDbfs' | 'maxSamplePeakDbfs' | 'maxTruePeakDbtp' | 'limiterMode' | 'passed' | 'events' | 'reasons' | 'latencySamples' | 'maxGainReductionDb' | 'samplesOverCeiling' | 'nonFiniteOutputSamples' | 'truePeakToleranceDb' | 'ceiling' | 'history' | 'notes';
-
-export interface LiveLevelCheckReport {
-  ceilingDbfs: number;
-  maxSamplePeakDbfs: number;
-  maxTruePeakDbtp: number;
-  limiterMode: LevelCapResult['limiterMode'];
+export interface LiveLevelCheckReport extends LimitsReportFields {
   /** The check passed and every sample handed to the output stayed within the ceiling. */
   passed: boolean;
-  /** Every event of the check (guard and limiter), time, cause, values, action. */
-  events: LevelCapResult['events'];
-  reasons: string[];
   source: 'live';
   live: LiveContext;
-  latencySamples: number;
-  maxGainReductionDb: number;
-  samplesOverCeiling: number;
-  nonFiniteOutputSamples: number;
-  truePeakToleranceDb: number | null;
-  ceiling: LevelCapResult['ceiling'];
   /** The live processor's own count of what it handed to the audio output. */
   handedToOutput: HandedToOutput;
-  check: Omit<LevelCapResult, Promoted>;
   closedLoop: null;
-  notes: string[];
   /** Per ~10 ms: test-signal level and peak, output sample and true peak, limiter gain reduction, error-mic peak. */
   history: LevelCapResult['history'];
 }
 
 export function buildLevelCheckReport(r: LevelCapResult, handed: HandedToOutput, live: LiveContext): LiveLevelCheckReport {
-  const reasons = [...r.reasons];
+  const moreReasons: string[] = [];
   if (handed.samplesOverCeiling > 0) {
-    reasons.push(`${handed.samplesOverCeiling} samples handed to the audio output exceeded the ${handed.ceilingDbfs.toFixed(2)} dBFS ceiling (largest ${handed.maxSamplePeakDbfs.toFixed(3)} dBFS)`);
+    moreReasons.push(`${handed.samplesOverCeiling} samples handed to the audio output exceeded the ${handed.ceilingDbfs.toFixed(2)} dBFS ceiling (largest ${handed.maxSamplePeakDbfs.toFixed(3)} dBFS)`);
   }
-  if (handed.nonFinite > 0) reasons.push(`${handed.nonFinite} samples handed to the audio output were not finite`);
-  const {
-    ceilingDbfs, maxSamplePeakDbfs, maxTruePeakDbtp, limiterMode, passed: _p, events, reasons: _r, latencySamples, maxGainReductionDb,
-    samplesOverCeiling, nonFiniteOutputSamples, truePeakToleranceDb, ceiling, history, notes, ...check
-  } = r;
-  return {
-    ceilingDbfs,
-    maxSamplePeakDbfs,
-    maxTruePeakDbtp,
-    limiterMode,
-    passed: reasons.length === 0,
-    events,
-    reasons,
-    source: 'live',
-    live,
-    latencySamples,
-    maxGainReductionDb,
-    samplesOverCeiling,
-    nonFiniteOutputSamples,
-    truePeakToleranceDb,
-    ceiling,
-    handedToOutput: handed,
-    check,
+  if (handed.nonFinite > 0) moreReasons.push(`${handed.nonFinite} samples handed to the audio output were not finite`);
+  return buildLimitsReport(r, {
+    moreReasons,
+    origin: { source: 'live' as const, live },
+    beforeCheck: { handedToOutput: handed },
     closedLoop: null,
-    notes: [
-      ...notes,
+    moreNotes: [
       `live run: ${handed.samples} samples handed to the audio output (${live.outputDevice}) were counted by the audio processor as they left it; what the amplifier and loudspeaker make of them is outside the check`,
     ],
-    history,
-  };
+  });
 }
 
 /** JSON with null for NaN and ±Infinity and typed arrays as lists (the tool never writes NaN into JSON). */
 export function reportJson(value: unknown): string {
-  return JSON.stringify(
-    value,
-    (_k, v: unknown) => {
-      if (typeof v === 'number' && !Number.isFinite(v)) return null;
-      if (ArrayBuffer.isView(v) && !(v instanceof DataView)) return Array.from(v as unknown as ArrayLike<number>);
-      return v;
-    },
-    2,
-  );
+  return safeJson(value, 2);
 }
 
 let assets: Promise<ReportAssets> | null = null;
