@@ -4,16 +4,13 @@
  * ceiling, sensor noise at the microphone), print the quality of the estimate and optionally save it as a
  * path-model file that `controller.modelFile` can name.
  */
-import { createHash } from 'node:crypto';
 import { existsSync, statSync } from 'node:fs';
 import { basename, dirname } from 'node:path';
 import { parseArgs } from 'node:util';
-import { InputError, readBytes, writeOutputs } from '../io/files-node.ts';
+import { writeOutputs } from '../io/files-node.ts';
 import { createPathModel, serializePathModel } from '../io/path-model-file.ts';
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
 import { identifySimulated, type IdentifySimResult } from '../plant/identify-sim.ts';
-import { parseScenario, type Scenario } from '../plant/scenario.ts';
-import type { WavTable } from '../plant/sources.ts';
 import { fmtDb, safeJson, stamp, UsageError, type Stamp } from './common.ts';
 import { progressBar } from './progress.ts';
 
@@ -82,34 +79,6 @@ export function numberFlag(flag: string, text: string | undefined, min: number, 
   return v;
 }
 
-/**
- * The scenario for identification. A `controller.modelFile` is not read: it is what identify writes, so it
- * may not exist yet. WAV sources are decoded only when they will play (--with-disturbance).
- */
-function loadForIdentify(path: string, withDisturbance: boolean): { scenario: Scenario; wavs: WavTable; sha256: string; skippedModelFile: string | null } {
-  const bytes = readBytes(path, 'scenario file');
-  let json: unknown;
-  try {
-    json = JSON.parse(new TextDecoder().decode(bytes));
-  } catch (e) {
-    throw new InputError(`scenario file "${path}" is not valid JSON: ${(e as Error).message}`);
-  }
-  const controller = (json as { controller?: Record<string, unknown> } | null)?.controller;
-  const modelFile = controller && typeof controller === 'object' && typeof controller.modelFile === 'string' ? controller.modelFile : null;
-  if (modelFile === null) {
-    const loaded = loadScenarioFile(path);
-    return { scenario: loaded.scenario, wavs: loaded.wavs, sha256: loaded.sha256, skippedModelFile: null };
-  }
-  const { modelFile: _skip, ...rest } = controller!;
-  const scenario = parseScenario({ ...(json as object), controller: rest });
-  if (withDisturbance && scenario.sources.some((s) => s.kind === 'wav')) {
-    // The WAV sources must be decoded, and the general loader does that (and reads the model file too).
-    const loaded = loadScenarioFile(path);
-    return { scenario, wavs: loaded.wavs, sha256: loaded.sha256, skippedModelFile: modelFile };
-  }
-  return { scenario, wavs: new Map(), sha256: createHash('sha256').update(bytes).digest('hex'), skippedModelFile: modelFile };
-}
-
 export async function identifyCommand(argv: string[]): Promise<number> {
   const { values, positionals } = parseArgsOrThrow(argv);
   if (values.help) {
@@ -134,7 +103,8 @@ export async function identifyCommand(argv: string[]): Promise<number> {
 
   const path = positionals[0]!;
   const withDisturbance = Boolean(values['with-disturbance']);
-  const loaded = loadForIdentify(path, withDisturbance);
+  // controller.modelFile is not read: identify is what writes it, so it may not exist yet.
+  const loaded = loadScenarioFile(path, { skipModelFile: true });
   const sc = loaded.scenario;
   const bar = progressBar(`identifying (${method})`);
   let r: IdentifySimResult;

@@ -1,6 +1,7 @@
 /**
  * Load a scenario file for the CLI: read and parse the JSON, validate it, decode the WAV sources it
- * names (paths relative to the scenario file) and hash it for the reproducibility stamp.
+ * names (paths relative to the scenario file), read the path model `controller.modelFile` names (unless
+ * told to skip it) and hash the file for the reproducibility stamp.
  */
 import { createHash } from 'node:crypto';
 import { resolve } from 'node:path';
@@ -18,9 +19,27 @@ export interface LoadedScenario {
   sha256: string;
   /** The controller's model when `controller.modelFile` names one (imperfections applied on top). */
   secondaryPathModel?: Float32Array;
+  /** With `skipModelFile`: the `controller.modelFile` the file names, left out of `scenario` and not read. */
+  skippedModelFile?: string;
 }
 
-export function loadScenarioFile(path: string): LoadedScenario {
+export interface LoadScenarioOptions {
+  /**
+   * Parse the scenario without its `controller.modelFile` (a string) and do not read that file: for
+   * `ancbench identify`, which is what writes it, so it may not exist yet. Default false.
+   */
+  skipModelFile?: boolean;
+}
+
+/** The parsed JSON with a string `controller.modelFile` taken out, and that name; anything else unchanged. */
+function withoutModelFile(json: unknown): { json: unknown; modelFile?: string } {
+  const controller = (json as { controller?: Record<string, unknown> } | null)?.controller;
+  if (!controller || typeof controller !== 'object' || typeof controller.modelFile !== 'string') return { json };
+  const { modelFile, ...rest } = controller;
+  return { json: { ...(json as object), controller: rest }, modelFile };
+}
+
+export function loadScenarioFile(path: string, options: LoadScenarioOptions = {}): LoadedScenario {
   const bytes = readBytes(path, 'scenario file');
   let json: unknown;
   try {
@@ -28,6 +47,8 @@ export function loadScenarioFile(path: string): LoadedScenario {
   } catch (e) {
     throw new InputError(`scenario file "${path}" is not valid JSON: ${(e as Error).message}`);
   }
+  let skippedModelFile: string | undefined;
+  if (options.skipModelFile) ({ json, modelFile: skippedModelFile } = withoutModelFile(json));
   const scenario = parseScenario(json);
   const base = baseDirOf(path);
   const wavs = new Map<string, Float32Array>();
@@ -68,5 +89,12 @@ export function loadScenarioFile(path: string): LoadedScenario {
   }
   if (problems.length) throw new InputError(`invalid scenario "${path}":\n  ${problems.join('\n  ')}`);
   const sha256 = createHash('sha256').update(bytes).digest('hex');
-  return { path, scenario, wavs, sha256, ...(secondaryPathModel ? { secondaryPathModel } : {}) };
+  return {
+    path,
+    scenario,
+    wavs,
+    sha256,
+    ...(secondaryPathModel ? { secondaryPathModel } : {}),
+    ...(skippedModelFile !== undefined ? { skippedModelFile } : {}),
+  };
 }
