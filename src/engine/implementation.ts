@@ -24,11 +24,13 @@ export const FXLMS_IMPLEMENTATIONS: readonly FxlmsImplementation[] = ['js', 'was
 
 /**
  * Taps (L + M) from which the automatic choice takes the frequency domain. From `npm run bench` on
- * the project's 2-core machines (block 128): the partitioned FD path with SIMD spectral loops passes
- * the SIMD time-domain kernel between (L, M) = (256, 128) and (512, 256); without SIMD, the FD path in
- * TypeScript passes the scalar time domain already at (256, 128).
+ * the project's 2-core machines (48 kHz, block 128, controller alone, 2026-12-02): with SIMD the
+ * time-domain kernel and the FD path tie at (L, M) = (512, 256) (167x and 173x real time) and the FD
+ * path is ahead from there on ((1024, 512): 100x against 172x), so the time domain, which keeps the
+ * per-sample update, is kept up to L + M = 1023. Without SIMD the FD path in TypeScript is already
+ * far ahead at (256, 128) (318x against 24x); the smallest filters stay in the time domain.
  */
-export const FD_THRESHOLD_TAPS_WASM = 768;
+export const FD_THRESHOLD_TAPS_WASM = 1024;
 export const FD_THRESHOLD_TAPS_JS = 384;
 
 export interface PlatformInfo {
