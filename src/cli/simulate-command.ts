@@ -31,6 +31,7 @@ export interface SimulateSummary {
   scenario: string;
   name: string | null;
   algorithm: string;
+  implementation: string;
   sampleRate: number;
   durationS: number;
   attenuationDb: number | null;
@@ -56,6 +57,7 @@ export function summarize(path: string, r: SimulationResult, st: Stamp, name: st
     scenario: path,
     name: name ?? null,
     algorithm: r.algorithm,
+    implementation: r.implementation,
     sampleRate: r.sampleRate,
     durationS: r.durationS,
     attenuationDb: r.attenuationDb,
@@ -88,7 +90,7 @@ export function attenuationCsv(r: SimulationResult): string {
 export function readableSummary(s: SimulateSummary): string {
   const lines = [
     `scenario      ${s.scenario}${s.name ? `  (${s.name})` : ''}`,
-    `controller    ${s.algorithm}, ${s.sampleRate} Hz, ${s.durationS.toFixed(2)} s`,
+    `controller    ${s.algorithm}, ${s.sampleRate} Hz, ${s.durationS.toFixed(2)} s; ${s.implementation}`,
     `attenuation   ${fmtDb(s.attenuationDb)}  (error mic, last 25 % of the run, unweighted)`,
     `error level   ${s.errorOffDbfs === null ? 'n/a' : s.errorOffDbfs.toFixed(1)} dBFS off → ${s.errorOnDbfs === null ? 'n/a' : s.errorOnDbfs.toFixed(1)} dBFS on`,
     `convergence   ${s.convergenceS === null ? 'not reached' : `${s.convergenceS.toFixed(2)} s`}`,

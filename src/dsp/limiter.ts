@@ -260,6 +260,7 @@ export class OutputLimiter {
     this.nonFiniteTotal = 0;
     this.nonFiniteBlock = 0;
     this.outputMeter.resetPeak();
+    this.updateReadouts();
   }
 
   /**
@@ -419,6 +420,24 @@ export class OutputLimiter {
     this.nonFiniteBlock = nonFinite;
     this.nonFiniteTotal += nonFinite;
     meter.process(output, count);
+    this.updateReadouts();
+  }
+
+  /**
+   * Read-outs as plain fields, refreshed at the end of every block. Per-block callers (the engine)
+   * read these rather than the getters: a getter the JIT does not inline returns its double boxed,
+   * which allocates once per call.
+   */
+  readonly readout = { gainReductionDb: 0, blockMaxGainReductionDb: 0, maxGainReductionDb: 0, maxTruePeak: 0, blockNonFiniteCount: 0, nonFiniteCount: 0 };
+
+  private updateReadouts(): void {
+    const r = this.readout;
+    r.gainReductionDb = gainToReductionDb(this.gain);
+    r.blockMaxGainReductionDb = gainToReductionDb(this.minGainBlock);
+    r.maxGainReductionDb = gainToReductionDb(this.minGainEver);
+    r.maxTruePeak = this.outputMeter.peak;
+    r.blockNonFiniteCount = this.nonFiniteBlock;
+    r.nonFiniteCount = this.nonFiniteTotal;
   }
 
   /** Current gain reduction in dB (≥ 0), at the end of the last block. */

@@ -72,6 +72,15 @@ export class Random {
     return u * m;
   }
 
+  /**
+   * Fill the first n entries of `out` with Gaussian samples of the given RMS. Per-block code should
+   * use this rather than calling `gaussian()` per sample: a call that the JIT does not inline returns
+   * its double boxed, which allocates on every sample.
+   */
+  fillGaussianN(out: Float32Array | Float64Array, n: number, rms = 1): void {
+    for (let i = 0; i < n; i++) out[i] = rms * this.gaussian();
+  }
+
   /** Fill `out` with Gaussian samples of the given RMS; returns `out`. */
   fillGaussian(out: Float32Array | Float64Array, rms = 1): Float32Array | Float64Array {
     for (let i = 0; i < out.length; i++) out[i] = rms * this.gaussian();

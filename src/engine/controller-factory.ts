@@ -1,12 +1,13 @@
 import type { Controller } from '../dsp/controller.ts';
-import { FxlmsController, type FxlmsConfig } from '../dsp/fxlms.ts';
+import type { FxlmsConfig } from '../dsp/fxlms.ts';
+import { buildFxlmsController, type FxlmsImplementationSettings } from './implementation.ts';
 import { TonalController, type TonalControllerConfig } from '../dsp/tonal-controller.ts';
 
 /** The narrowband controller's settings as a configuration names them (the engine supplies the rest). */
 export type TonalSettings = { algorithm: 'tonal' } & Omit<TonalControllerConfig, 'sampleRate' | 'maxBlockSize' | 'secondaryPathModel'>;
 
 /** Every controller configuration the engine can run: a union discriminated by `algorithm`. */
-export type ControllerConfig = FxlmsConfig | TonalSettings;
+export type ControllerConfig = (FxlmsConfig & FxlmsImplementationSettings) | TonalSettings;
 
 /** Build the controller a configuration names. Validates; allocates everything once. */
 export function createController(
@@ -18,7 +19,8 @@ export function createController(
   switch (config.algorithm) {
     case 'fxlms':
     case 'fxnlms':
-      return new FxlmsController(config, secondaryPathModel, maxBlockSize);
+      // time domain in TypeScript or wasm SIMD, or partitioned frequency domain: see implementation.ts
+      return buildFxlmsController(config, secondaryPathModel, maxBlockSize);
     case 'tonal': {
       const { algorithm: _a, ...rest } = config;
       return new TonalController({ ...rest, sampleRate, maxBlockSize, secondaryPathModel });

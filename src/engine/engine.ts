@@ -334,11 +334,11 @@ export class Engine {
       info.outN = this.prevOutN;
       info.weightNormSq = m.weightNormSquared;
       info.baselineErrorPower = this.mode === 'control' ? baseline : NaN;
-      info.limiterGainReductionDb = lim.gainReductionDb;
+      info.limiterGainReductionDb = lim.readout.gainReductionDb;
       const action = guard.check(info);
       if (action === ACTION.resetWeights || action === ACTION.mute) this.controller.reset();
     }
-    const limiterFreeze = lim.gainReductionDb > this.freezeAboveDb;
+    const limiterFreeze = lim.readout.gainReductionDb > this.freezeAboveDb;
     const guardAllowsAdapt = guard ? guard.adaptationAllowed : true;
     const guardAllowsOutput = guard ? guard.outputAllowed : true;
     this.controller.adapt = this.userAdapt && guardAllowsAdapt && !limiterFreeze;
@@ -410,11 +410,11 @@ export class Engine {
     }
     op /= n;
 
-    if (lim.blockNonFiniteCount > 0) {
+    if (lim.readout.blockNonFiniteCount > 0) {
       const st = this.events.staged;
       st[0] = m.timeS;
       st[1] = 2; // NON_FINITE_SOURCES index of 'out'
-      st[2] = lim.blockNonFiniteCount;
+      st[2] = lim.readout.blockNonFiniteCount;
       this.events.commit(CAUSE.nonFinite, ACTION.none);
     }
 
@@ -452,11 +452,12 @@ export class Engine {
     m.errPeak = epk;
     m.outPeak = opk;
     if (opk > m.maxOutPeak) m.maxOutPeak = opk;
-    m.maxOutTruePeak = lim.maxTruePeak;
+    const ro = lim.readout;
+    m.maxOutTruePeak = ro.maxTruePeak;
     m.rampGain = gain;
-    m.gainReductionDb = lim.gainReductionDb;
-    m.maxGainReductionDb = lim.maxGainReductionDb;
-    m.nonFiniteOut = lim.nonFiniteCount;
+    m.gainReductionDb = ro.gainReductionDb;
+    m.maxGainReductionDb = ro.maxGainReductionDb;
+    m.nonFiniteOut = ro.nonFiniteCount;
     m.weightNormSquared = this.controller.weightNormSquared();
     m.guardState = guard ? (guard.state === 'running' ? 0 : guard.state === 'frozen' ? 1 : 2) : 0;
     m.frozenByLimiter = limiterFreeze ? 1 : 0;
@@ -491,8 +492,8 @@ export class Engine {
     const m = this.meters;
     m.outPeak = opk;
     if (opk > m.maxOutPeak) m.maxOutPeak = opk;
-    m.maxOutTruePeak = this.limiter.maxTruePeak;
-    m.gainReductionDb = this.limiter.gainReductionDb;
+    m.maxOutTruePeak = this.limiter.readout.maxTruePeak;
+    m.gainReductionDb = this.limiter.readout.gainReductionDb;
     m.rampGain = this.ramp.gain;
   }
 }

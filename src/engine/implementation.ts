@@ -13,9 +13,10 @@ import { wasmSimdSupported } from '../dsp/wasm-module.ts';
  *          two): its spectral loops run in the WebAssembly SIMD kernel when the platform has it, in
  *          TypeScript otherwise.
  *
- * The automatic choice prefers the time domain for short filters (it keeps the per-sample update the
- * scenario asked for) and the frequency domain once the filters are long enough for it to be faster;
- * an explicit `update: 'sample'` keeps the time domain at any length.
+ * The automatic choice keeps the reference behaviour: the wasm SIMD time domain wherever SIMD runs,
+ * else the frequency domain with the full gradient constraint (exactly block LMS) for long filters;
+ * an explicit `update: 'sample'` keeps the time domain at any length. The alternating constraint,
+ * faster but slower to converge, is chosen only by `fdConstraint: 'alternating'`.
  */
 export type FxlmsImplementation = 'js' | 'wasm' | 'fd';
 export type ImplementationRequest = FxlmsImplementation | 'auto';
@@ -23,7 +24,9 @@ export type ImplementationRequest = FxlmsImplementation | 'auto';
 export const FXLMS_IMPLEMENTATIONS: readonly FxlmsImplementation[] = ['js', 'wasm', 'fd'];
 
 /**
- * Taps (L + M) from which the automatic choice takes the frequency domain. From `npm run bench` on
+ * FD_THRESHOLD_TAPS_JS: taps (L + M) from which the automatic choice takes the frequency domain when
+ * WebAssembly SIMD is missing. FD_THRESHOLD_TAPS_WASM: where the alternating FD path overtakes the
+ * SIMD time domain (kept for users choosing by hand; the automatic choice no longer uses it). From `npm run bench` on
  * the project's 2-core machines (48 kHz, block 128, controller alone, 2026-12-02): with SIMD the
  * time-domain kernel and the FD path tie at (L, M) = (512, 256) (167x and 173x real time) and the FD
  * path is ahead from there on ((1024, 512): 100x against 172x), so the time domain, which keeps the
@@ -71,10 +74,16 @@ export function chooseFxlmsImplementation(config: FxlmsConfig, platform: Platfor
       if (fdBlocker) throw new RangeError(`controller.implementation "fd" cannot run here: ${fdBlocker}`);
       return 'fd';
     case 'auto': {
+      // Exact reference behaviour first: the wasm SIMD time-domain kernel computes the same per-sample
+      // (or block) update as src/dsp/fxlms.ts and, through the whole engine, is the fastest exact option
+      // at every size benchmarked. Without SIMD the frequency-domain path (full constraint, exactly block
+      // LMS) takes over from FD_THRESHOLD_TAPS_JS taps. The alternating constraint is faster still but
+      // converges more slowly with many partitions (room demo: 8.2 against 13.5 dB after 15 s), so it is
+      // used only when asked for.
+      if (platform.wasmSimd) return 'wasm';
       const total = config.taps + (platform.modelTaps ?? config.taps);
-      const threshold = platform.wasmSimd ? FD_THRESHOLD_TAPS_WASM : FD_THRESHOLD_TAPS_JS;
-      if (!fdBlocker && total >= threshold) return 'fd';
-      return platform.wasmSimd ? 'wasm' : 'js';
+      if (!fdBlocker && total >= FD_THRESHOLD_TAPS_JS) return 'fd';
+      return 'js';
     }
     default: {
       const bad: never = force;
@@ -84,7 +93,7 @@ export function chooseFxlmsImplementation(config: FxlmsConfig, platform: Platfor
 }
 
 export interface CreateOptions {
-  /** FD gradient constraint (default 'alternating'). */
+  /** FD gradient constraint (default 'full'). */
   constraint?: GradientConstraint;
   /** Whether the FD path may use the wasm kernel; default: wasmSimdSupported(). */
   wasmSimd?: boolean;
@@ -111,7 +120,7 @@ export function createFxlmsController(
     case 'fd': {
       const simd = options.wasmSimd ?? wasmSimdSupported();
       return new FdFxlmsController(config, secondaryPathModel, maxBlockSize, {
-        constraint: options.constraint ?? 'alternating',
+        constraint: options.constraint ?? 'full',
         kernel: simd ? 'wasm' : 'js',
       });
     }
@@ -126,7 +135,7 @@ export function createFxlmsController(
 export interface FxlmsImplementationSettings {
   /** 'auto' (default) lets filter lengths and platform decide; the others force a choice. */
   implementation?: ImplementationRequest | undefined;
-  /** Gradient constraint of the frequency-domain path (default 'alternating'). */
+  /** Gradient constraint of the frequency-domain path (default 'full'). */
   fdConstraint?: GradientConstraint | undefined;
 }
 

@@ -82,6 +82,8 @@ const fxlmsController = z.strictObject({
   leakage: num(0, 1e6).optional(),
   regularization: z.number().positive('must be > 0').optional(),
   update: z.enum(['sample', 'block'], { error: 'must be "sample" or "block"' }).optional(),
+  implementation: z.enum(['auto', 'js', 'wasm', 'fd'], { error: 'must be "auto", "js", "wasm" or "fd"' }).optional(),
+  fdConstraint: z.enum(['alternating', 'full'], { error: 'must be "alternating" or "full"' }).optional(),
   ...modelFields,
 });
 

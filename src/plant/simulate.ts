@@ -24,6 +24,7 @@ import { pathResponse, scenarioCeilingDbfs, ScenarioError, type Scenario } from 
 import { createSource, type SourceGenerator, type WavTable } from './sources.ts';
 import { imperfectModel } from './secondary-model.ts';
 import { TonalController } from '../dsp/tonal-controller.ts';
+import { describeImplementation } from '../engine/implementation.ts';
 import type { Controller } from '../dsp/controller.ts';
 
 export interface SimulateOptions {
@@ -53,6 +54,8 @@ export interface SimulationResult {
   durationS: number;
   controlStartS: number;
   algorithm: string;
+  /** Which code ran the controller (time domain in TypeScript or wasm SIMD, or frequency domain). */
+  implementation: string;
   /** Steady-state attenuation at the error mic, dB (null with a note when undefined). */
   attenuationDb: number | null;
   convergenceS: number | null;
@@ -131,6 +134,8 @@ export function engineControllerConfig(sc: Scenario): ControllerConfig {
     ...(c.leakage !== undefined ? { leakage: c.leakage } : {}),
     ...(c.regularization !== undefined ? { regularization: c.regularization } : {}),
     ...(c.update !== undefined ? { update: c.update } : {}),
+    ...(c.implementation !== undefined ? { implementation: c.implementation } : {}),
+    ...(c.fdConstraint !== undefined ? { fdConstraint: c.fdConstraint } : {}),
   };
 }
 
@@ -531,6 +536,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     durationS: total / fs,
     controlStartS,
     algorithm: sc.controller.algorithm,
+    implementation: describeImplementation(engine.controller),
     attenuationDb,
     convergenceS: conv.convergenceS,
     wienerBoundDb,

@@ -21,11 +21,12 @@ describe('chooseFxlmsImplementation', () => {
     expect(chooseFxlmsImplementation(short, { wasmSimd: false, modelTaps: 64 })).toBe('js');
   });
 
-  it('should take the frequency domain from the documented length threshold on', () => {
+  it('should keep the exact time domain with SIMD, and take the frequency domain without it from the documented length on', () => {
     const at = (taps: number, wasmSimd: boolean): string => chooseFxlmsImplementation({ ...short, taps }, { wasmSimd, modelTaps: taps, maxBlockSize: 128 });
-    // taps + modelTaps against the threshold: one below stays in the time domain, at it goes FD
-    expect(at(Math.floor((FD_THRESHOLD_TAPS_WASM - 1) / 2), true)).toBe('wasm');
-    expect(at(FD_THRESHOLD_TAPS_WASM / 2, true)).toBe('fd');
+    // with SIMD the time-domain kernel is the fastest exact implementation at every size benchmarked
+    expect(at(FD_THRESHOLD_TAPS_WASM, true)).toBe('wasm');
+    expect(at(8192, true)).toBe('wasm');
+    // without SIMD, taps + modelTaps against the threshold: one below stays in the time domain, at it goes FD
     expect(at(Math.floor((FD_THRESHOLD_TAPS_JS - 1) / 2), false)).toBe('js');
     expect(at(FD_THRESHOLD_TAPS_JS / 2, false)).toBe('fd');
   });
@@ -33,7 +34,7 @@ describe('chooseFxlmsImplementation', () => {
   it('should stay in the time domain when per-sample updates are asked for or the block is not a power of two', () => {
     expect(chooseFxlmsImplementation({ ...long, update: 'sample' }, { wasmSimd: true, modelTaps: 2048 })).toBe('wasm');
     expect(chooseFxlmsImplementation(long, { wasmSimd: false, modelTaps: 2048, maxBlockSize: 96 })).toBe('js');
-    expect(chooseFxlmsImplementation({ ...long, update: 'block' }, { wasmSimd: true, modelTaps: 2048, maxBlockSize: 256 })).toBe('fd');
+    expect(chooseFxlmsImplementation({ ...long, update: 'block' }, { wasmSimd: false, modelTaps: 2048, maxBlockSize: 256 })).toBe('fd');
   });
 
   it('should honour a forced choice and refuse one that cannot run, naming the reason', () => {
@@ -81,11 +82,12 @@ describe('createFxlmsController', () => {
 
   it('should choose and build in one step from the scenario fields', () => {
     const model = new Float32Array(2048).map((_, i) => Math.exp(-i / 100) * 0.1);
-    const auto = buildFxlmsController(long, model, 128, true);
+    expect(buildFxlmsController(long, model, 128, true).implementation).toBe('wasm');
+    const auto = buildFxlmsController(long, model, 128, false);
     expect(auto.implementation).toBe('fd');
-    expect(describeImplementation(auto)).toMatch(/alternating constraint/);
-    const full = buildFxlmsController({ ...long, fdConstraint: 'full' }, model, 128, false);
-    expect(describeImplementation(full)).toMatch(/frequency domain \(TypeScript spectral loops, full constraint/);
+    expect(describeImplementation(auto)).toMatch(/frequency domain \(TypeScript spectral loops, full constraint/);
+    const alt = buildFxlmsController({ ...long, implementation: 'fd', fdConstraint: 'alternating' }, model, 128, true);
+    expect(describeImplementation(alt)).toMatch(/alternating constraint/);
     expect(buildFxlmsController({ ...long, implementation: 'js' }, model, 128, true).implementation).toBe('js');
     expect(() => buildFxlmsController({ ...long, implementation: 'wasm' }, model, 128, false)).toThrow(/needs WebAssembly SIMD/);
   });
@@ -95,6 +97,6 @@ describe('createFxlmsController', () => {
     const words = FXLMS_IMPLEMENTATIONS.map((impl) => describeImplementation(createFxlmsController({ ...short, update: 'block' }, model, 128, impl, { wasmSimd: true })));
     expect(words[0]).toMatch(/time domain \(TypeScript, block update\)/);
     expect(words[1]).toMatch(/time domain \(wasm SIMD, block update\)/);
-    expect(words[2]).toMatch(/frequency domain \(wasm SIMD spectral loops, alternating constraint, partition 128\)/);
+    expect(words[2]).toMatch(/frequency domain \(wasm SIMD spectral loops, full constraint, partition 128\)/);
   });
 });
