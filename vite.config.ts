@@ -28,7 +28,8 @@ const isolation = {
 export function contentSecurityPolicy(dev: boolean): string {
   return [
     "default-src 'self'",
-    "script-src 'self' blob:",
+    // 'wasm-unsafe-eval' lets WebAssembly compile (the FxLMS SIMD kernels); it allows no JavaScript eval
+    "script-src 'self' blob: 'wasm-unsafe-eval'",
     "worker-src 'self'",
     "style-src 'self'",
     "img-src 'self' data:",

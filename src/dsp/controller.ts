@@ -27,9 +27,9 @@ export interface Controller {
   /** Copy the current control weights into `out` (allocated by the caller); returns the count written. */
   copyWeights(out: Float32Array): number;
   /** Change the step size μ (applied by the engine at a block boundary). */
-  setStepSize?(mu: number): void;
+  setStepSize(mu: number): void;
   /** Change the leakage γ ≥ 0. */
-  setLeakage?(gamma: number): void;
+  setLeakage(gamma: number): void;
   /**
    * Replace the secondary-path model in place (same length, or shorter: the rest is zero). For a new
    * identification during a session, or for fault injection in the simulator. Not per block.

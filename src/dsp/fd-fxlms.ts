@@ -335,6 +335,14 @@ export class FdFxlmsController implements Controller {
    * samples of each partition's impulse response, i.e. the weights as the next projection leaves
    * them. Costs K_L/2 inverse FFTs; meant for displays and tests, not for every block.
    */
+  setStepSize(mu: number): void {
+    if (mu > 0 && Number.isFinite(mu)) this.stepSize = mu;
+  }
+
+  setLeakage(gamma: number): void {
+    if (gamma >= 0 && Number.isFinite(gamma)) this.leakage = gamma;
+  }
+
   copyWeights(out: Float32Array | Float64Array): number {
     const n = Math.min(out.length, this.taps);
     const P = this.partitionSize;

@@ -419,7 +419,7 @@ export class OutputLimiter {
     if (peakBlock > this.samplePeakEver) this.samplePeakEver = peakBlock;
     this.nonFiniteBlock = nonFinite;
     this.nonFiniteTotal += nonFinite;
-    meter.process(output, count);
+    meter.processMax(output, count);
     this.updateReadouts();
   }
 

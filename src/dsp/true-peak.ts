@@ -40,6 +40,17 @@ export const BS1770_INTERPOLATOR: Float64Array = (() => {
   return h;
 })();
 
+/** Largest Σ_k |h_p[k]| over the four phases: |interpolated value| ≤ this × the window's largest |sample|. */
+export const TRUE_PEAK_MAX_GAIN: number = (() => {
+  let g = 0;
+  for (let p = 0; p < 4; p++) {
+    let s = 0;
+    for (let k = 0; k < 12; k++) s += Math.abs(BS1770_INTERPOLATOR[p * 12 + k]!);
+    if (s > g) g = s;
+  }
+  return g;
+})();
+
 /** Taps per phase of the Annex 2 interpolator. */
 export const INTERPOLATOR_TAPS = 12;
 /** Oversampling factor of the Annex 2 interpolator. */
@@ -114,6 +125,48 @@ export class TruePeakMeter {
     const a3 = y3 < 0 ? -y3 : y3;
     if (a3 > m) m = a3;
     this.intervalPeak = m;
+  }
+
+  /**
+   * Like `process`, but keeps only the running maximum `peak` (and `nonFiniteCount`) exact, which is
+   * all a meter of the largest true peak needs, at a fraction of the cost: each interpolated value is a
+   * 12-tap combination of input samples, so it is at most MAX_GAIN (the largest Σ|h_p[k]| of a phase)
+   * times the largest |sample| in its window. When that bound over the block and the history cannot
+   * exceed the peak so far, the samples only enter the history. `blockPeak` is then not computed (NaN).
+   */
+  processMax(x: Float32Array | Float64Array, n: number): void {
+    const count = n < x.length ? n : x.length;
+    let amax = 0;
+    const hist = this.history;
+    for (let k = 0; k < INTERPOLATOR_TAPS; k++) {
+      const a = hist[k]! < 0 ? -hist[k]! : hist[k]!;
+      if (a > amax) amax = a;
+    }
+    let bad = 0;
+    for (let i = 0; i < count; i++) {
+      const xi = x[i]!;
+      if (!(xi - xi === 0)) {
+        bad++;
+        continue;
+      }
+      const a = xi < 0 ? -xi : xi;
+      if (a > amax) amax = a;
+    }
+    if (amax * TRUE_PEAK_MAX_GAIN > this.peakLinear) {
+      this.process(x, count);
+      return;
+    }
+    this.nonFinite += bad;
+    let p = this.pos;
+    for (let i = 0; i < count; i++) {
+      const raw = x[i]!;
+      const v = raw - raw === 0 ? raw : 0;
+      p = p + 1 === INTERPOLATOR_TAPS ? 0 : p + 1;
+      hist[p] = v;
+      hist[p + INTERPOLATOR_TAPS] = v;
+    }
+    this.pos = p;
+    this.blockPeakLinear = NaN;
   }
 
   /** Meter n samples of `x` (n is clamped to x.length); updates `blockPeak`, `peak`, `nonFiniteCount`. */

@@ -89,6 +89,14 @@ export class WasmFxlmsController implements Controller {
     return this.k.tdWeightNormSquared();
   }
 
+  setStepSize(mu: number): void {
+    if (mu > 0 && Number.isFinite(mu)) this.stepSize = mu;
+  }
+
+  setLeakage(gamma: number): void {
+    if (gamma >= 0 && Number.isFinite(gamma)) this.leakage = gamma;
+  }
+
   copyWeights(out: Float32Array | Float64Array): number {
     const n = Math.min(out.length, this.taps);
     const w = this.w;

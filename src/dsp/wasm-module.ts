@@ -73,13 +73,16 @@ export function fxlmsWasmBytes(): Uint8Array {
 }
 
 /**
- * Whether this platform runs the kernels: WebAssembly exists and validates the module, which uses
- * 128-bit SIMD (so validation is the feature test).
+ * Whether this platform runs the kernels: WebAssembly exists, validates the module (which uses
+ * 128-bit SIMD, so validation is the feature test) and may compile it: a page whose
+ * Content-Security-Policy lacks 'wasm-unsafe-eval' validates but refuses to compile, and then the
+ * TypeScript implementations run instead.
  */
 export function wasmSimdSupported(): boolean {
   if (simd === null) {
     try {
       simd = typeof WebAssembly === 'object' && WebAssembly.validate(fxlmsWasmBytes() as BufferSource);
+      if (simd && !compiled) compiled = new WebAssembly.Module(fxlmsWasmBytes() as BufferSource);
     } catch {
       simd = false;
     }

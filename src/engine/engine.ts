@@ -272,11 +272,11 @@ export class Engine {
     }
     const c = this.controller;
     if (!Number.isNaN(this.pendingStepSize)) {
-      if (c.setStepSize) c.setStepSize(this.pendingStepSize);
+      c.setStepSize(this.pendingStepSize);
       this.pendingStepSize = NaN;
     }
     if (!Number.isNaN(this.pendingLeakage)) {
-      if (c.setLeakage) c.setLeakage(this.pendingLeakage);
+      c.setLeakage(this.pendingLeakage);
       this.pendingLeakage = NaN;
     }
     if (!Number.isNaN(this.pendingCeilingDb)) {

@@ -292,6 +292,10 @@ class TestSignalSource implements Controller {
     return 0;
   }
 
+  /** A test signal has no step size or leakage: these do nothing. */
+  setStepSize(): void {}
+  setLeakage(): void {}
+
   copyWeights(): number {
     return 0;
   }

@@ -179,6 +179,8 @@ describe('level-cap check', () => {
           reset() {},
           weightNormSquared: () => 0,
           copyWeights: () => 0,
+          setStepSize() {},
+          setLeakage() {},
           process(_r, _e, out, n) {
             for (let i = 0; i < n; i++) out[i] = signal[p++]!;
           },
