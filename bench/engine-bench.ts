@@ -243,7 +243,7 @@ async function main(): Promise<void> {
   }
   say('');
   say(`peak resident memory: ${(process.resourceUsage().maxRSS / 1024).toFixed(1)} MiB; load average at end ${os.loadavg().map((x) => x.toFixed(2)).join(' ')}`);
-  if (rows.some((r) => r.host === 'engine-with-bench-controller')) say('* the engine\'s controller factory does not build this implementation yet: the bench hands the engine its controller');
+  if (rows.some((r) => r.host === 'engine-with-bench-controller')) say('* the engine builds this implementation only where WebAssembly SIMD is missing (the fallback); here the bench hands the engine that controller');
   const all: (BenchRow | WorkletRow)[] = [...rows];
   if (args.worklet) {
     const wv = variants.filter((v) => (args.only ? true : ['js', 'wasm', 'fd'].includes(v.name)));
