@@ -504,3 +504,38 @@ export function unpackReal(z: usize, dR: usize, dI: usize, P: i32): void {
     store<f32>(dI + o, q == 0 || q == P ? <f32>0 : <f32>load<f64>(zo, 8));
   }
 }
+
+// ---------------------------------------------------------------------------------------------
+// 3. Largest true peak of a block (ITU-R BS.1770-4 Annex 2 interpolator, 4 phases × 12 taps)
+//
+// The window at `win` holds the 11 samples before the block and then the n new ones (f32). `coef`
+// holds 12 v128 vectors, coef[k] = (h0[k], h1[k], h2[k], h3[k]), so the four interpolated points of
+// one input step come out of one f32x4 accumulator: y = Σ_k splat(x[m − k])·coef[k]. The largest
+// |y| of the block is stored at `out` (a float returned to JavaScript would be boxed on every call);
+// the host shifts the window.
+
+/** max |Σ_k x[m − k]·h_p[k]| over the block's samples m and the four phases p, stored at out. */
+export function tpBlockMax(win: usize, coef: usize, n: i32, out: usize): void {
+  const c0 = v128.load(coef), c1 = v128.load(coef + 16), c2 = v128.load(coef + 32), c3 = v128.load(coef + 48);
+  const c4 = v128.load(coef + 64), c5 = v128.load(coef + 80), c6 = v128.load(coef + 96), c7 = v128.load(coef + 112);
+  const c8 = v128.load(coef + 128), c9 = v128.load(coef + 144), c10 = v128.load(coef + 160), c11 = v128.load(coef + 176);
+  let best = f32x4.splat(0);
+  for (let j: i32 = 0; j < n; j++) {
+    // newest sample of this step at win[11 + j]; x[m − k] = win[11 + j − k]
+    const p = win + (<usize>j << 2);
+    let acc = f32x4.mul(f32x4.splat(load<f32>(p, 44)), c0);
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 40)), c1));
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 36)), c2));
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 32)), c3));
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 28)), c4));
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 24)), c5));
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 20)), c6));
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 16)), c7));
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 12)), c8));
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 8)), c9));
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 4)), c10));
+    acc = f32x4.add(acc, f32x4.mul(f32x4.splat(load<f32>(p, 0)), c11));
+    best = f32x4.max(best, f32x4.abs(acc));
+  }
+  store<f32>(out, max(max(f32x4.extract_lane(best, 0), f32x4.extract_lane(best, 1)), max(f32x4.extract_lane(best, 2), f32x4.extract_lane(best, 3))));
+}

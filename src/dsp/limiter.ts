@@ -46,6 +46,7 @@
  * No allocation after construction; `process` never throws.
  */
 import { TruePeakMeter, INTERPOLATOR_DELAY_SAMPLES, INTERPOLATOR_TAPS } from './true-peak.ts';
+import { TruePeakMax } from './true-peak-max.ts';
 
 export interface OutputLimiterConfig {
   /** Sample rate in Hz, 8000 … 384000. */
@@ -140,7 +141,8 @@ export class OutputLimiter {
   private boxPos = 0;
 
   private readonly detector = new TruePeakMeter();
-  private readonly outputMeter = new TruePeakMeter();
+  /** The output's largest true peak, for reporting (SIMD when available: see true-peak-max.ts). */
+  private readonly outputMeter: TruePeakMax;
 
   private gain = 1;
   private ceiling: number;
@@ -165,6 +167,7 @@ export class OutputLimiter {
       throw new RangeError(`maxBlockSize must be an integer from 1 to 65536 samples, got ${String(maxBlock)}`);
     }
     this.maxBlockSize = maxBlock;
+    this.outputMeter = new TruePeakMax(maxBlock);
     const ceilingError = checkCeilingDbfs(config.ceilingDbfs);
     if (ceilingError !== null) throw new RangeError(ceilingError);
     const lookaheadMs = checkRange('lookaheadMs', config.lookaheadMs ?? 0, 0, 50, ' ms');
@@ -472,7 +475,7 @@ export class OutputLimiter {
 
   /** `maxTruePeak` in dBTP. */
   get maxTruePeakDbtp(): number {
-    return this.outputMeter.peakDbtp;
+    return 20 * Math.log10(this.outputMeter.peak);
   }
 
   /** Non-finite input samples replaced by 0 since reset / resetMeters. */

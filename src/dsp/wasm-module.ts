@@ -34,6 +34,7 @@ export interface FxlmsKernelExports {
   unpackPair(z: number, aR: number, aI: number, bR: number, bI: number, P: number): void;
   unpackReal(z: number, dR: number, dI: number, P: number): void;
   cupdateUnconstrained(wR: number, wI: number, fR: number, fI: number, eR: number, eI: number, K: number, fHead: number, bins: number, P: number, lossPtr: number, norms: number): void;
+  tpBlockMax(win: number, coef: number, n: number, out: number): void;
 }
 
 const B64 = 'ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/';

@@ -251,13 +251,14 @@ describe('OutputLimiter', () => {
     });
 
     it('should measure the output true peak with the BS.1770-4 meter', () => {
-      // The read-out must equal an independent TruePeakMeter run over the same output (ITU-R BS.1770-4 Annex 2).
+      // The read-out must equal an independent TruePeakMeter run over the same output (ITU-R BS.1770-4 Annex 2),
+      // to the f32 rounding of the SIMD kernel that computes it (src/dsp/true-peak-max.ts).
       const lim = new OutputLimiter({ ...base, lookaheadMs: 1 });
       const x = sine(4800, 11000, 2, 0.4);
       const y = run(lim, x);
       const m = new TruePeakMeter();
       m.process(y, y.length);
-      expect(lim.maxTruePeak).toBe(m.peak);
+      expect(Math.abs(lim.maxTruePeak - m.peak)).toBeLessThanOrEqual(2e-6 * m.peak);
       lim.resetMeters();
       expect(lim.maxTruePeak).toBe(0);
       expect(lim.maxSamplePeak).toBe(0);

@@ -90,7 +90,7 @@ describe('level-cap check', () => {
           expect(r.events.some((e) => e.cause === 'non-finite')).toBe(true);
           expect(r.events.some((e) => e.cause === 'output-at-ceiling')).toBe(true);
           // the check's meter and the limiter's own agree (the same stream, two meters)
-          expect(r.limiterTruePeakDbtp).toBeCloseTo(r.maxTruePeakDbtp, 6);
+          expect(r.limiterTruePeakDbtp).toBeCloseTo(r.maxTruePeakDbtp, 5); // the limiter meters in f32 SIMD: 1e-6 dB of rounding
           if (m.name === 'true-peak') {
             expect(r.truePeakToleranceDb).toBe(TRUE_PEAK_TOLERANCE_DB);
             expect(r.maxTruePeakDbtp).toBeLessThanOrEqual(-6 + TRUE_PEAK_TOLERANCE_DB);
