@@ -6,7 +6,8 @@
 import type { Engine } from '../src/engine/engine.ts';
 import { createController, type ControllerConfig } from '../src/engine/controller-factory.ts';
 import { createEventBatch, VALUES_PER_EVENT, type EventBatch } from '../src/engine/events.ts';
-import { parseControlMessage, harmonicIndex, M, MAX_PANEL_HARMONICS, type ControlMessage, type PortLike } from '../src/engine/messages.ts';
+import { describeImplementation } from '../src/engine/implementation.ts';
+import { parseControlMessage, harmonicIndex, M, MAX_PANEL_HARMONICS, type ControlMessage, type PortLike, type WorkletMessage } from '../src/engine/messages.ts';
 import { createHarmonicReadout, type TonalController } from '../src/dsp/tonal-controller.ts';
 import type { Telemetry } from './adapter.ts';
 
@@ -45,7 +46,9 @@ export function applyEngineMessage(engine: Engine, msg: ControlMessage, port: Po
       engine.switchController(msg.crossfadeMs);
       const toTonal = incoming.kind === 'tonal';
       tel.event(engine.meters.timeS, 'controller-switch', 'none', msg.crossfadeMs, toTonal ? 1 : 0, NaN, false);
-      port.postMessage({ type: 'switched', toTonal, crossfadeMs: msg.crossfadeMs });
+      // the incoming controller is the one that runs from the next block on: the panel shows what runs it
+      const switched: WorkletMessage = { type: 'switched', toTonal, crossfadeMs: msg.crossfadeMs, implementation: describeImplementation(incoming) };
+      port.postMessage(switched);
       return true;
     }
     case 'set-step-size':

@@ -1,4 +1,5 @@
 import { Engine } from '../src/engine/engine.ts';
+import { describeImplementation } from '../src/engine/implementation.ts';
 import type { ControllerConfig } from '../src/engine/controller-factory.ts';
 import { ExponentialSweep } from '../src/dsp/sweep.ts';
 import { createOutputCalibration } from '../src/analysis/calibration.ts';
@@ -13,6 +14,7 @@ import {
   type LiveProcessorOptions,
   type ProbeSpec,
   type PortLike,
+  type WorkletMessage,
 } from '../src/engine/messages.ts';
 import { ChunkSender, InputConditioner, Telemetry, levels } from './adapter.ts';
 import { CalibrationTone } from './calibration-tone.ts';
@@ -117,7 +119,15 @@ class LiveProcessor extends AudioWorkletProcessor {
     this.telemetry = new Telemetry(this.port, telemetry, sampleRate);
     this.chunks = new ChunkSender(telemetry.chunkSamples, sampleRate, false);
     this.port.onmessage = (e) => this.onMessage(e.data);
-    this.port.postMessage({ type: 'ready', sampleRate, telemetry: this.telemetry.shared ? 'shared' : 'posted', maxBlockSize: maxQuantum, modelTaps: o.secondaryPathModel.length });
+    const ready: WorkletMessage = {
+      type: 'ready',
+      sampleRate,
+      telemetry: this.telemetry.shared ? 'shared' : 'posted',
+      maxBlockSize: maxQuantum,
+      modelTaps: o.secondaryPathModel.length,
+      implementation: describeImplementation(this.engine.controller),
+    };
+    this.port.postMessage(ready);
   }
 
   private buildEngine(model: Float32Array, controller: ControllerConfig, startMode: 'idle' | 'control' | 'muted', standby: ControllerConfig | undefined): Engine {
@@ -170,7 +180,8 @@ class LiveProcessor extends AudioWorkletProcessor {
           const t = this.clockS;
           this.engine = this.buildEngine(msg.secondaryPathModel, msg.controller, msg.startMode ?? 'idle', msg.standbyController);
           this.offsetS = t;
-          this.port.postMessage({ type: 'configured', modelTaps: msg.secondaryPathModel.length });
+          const configured: WorkletMessage = { type: 'configured', modelTaps: msg.secondaryPathModel.length, implementation: describeImplementation(this.engine.controller) };
+          this.port.postMessage(configured);
         } catch (e) {
           this.error((e as Error).message);
         }

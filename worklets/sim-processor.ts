@@ -1,7 +1,8 @@
 import { PlantLoop } from '../src/plant/simulate.ts';
 import { OutputLimiter } from '../src/dsp/limiter.ts';
 import type { Scenario } from '../src/plant/scenario.ts';
-import { M, MODE_CODES, checkTelemetryOptions, type SimProcessorOptions, type PortLike } from '../src/engine/messages.ts';
+import { describeImplementation } from '../src/engine/implementation.ts';
+import { M, MODE_CODES, checkTelemetryOptions, type SimProcessorOptions, type PortLike, type WorkletMessage } from '../src/engine/messages.ts';
 import { ChunkSender, Telemetry, levels } from './adapter.ts';
 import { receive, applyEngineMessage, attachStandby, copyWeights, fillEngineExtras, relayEngineEvents, EngineEventState } from './engine-events.ts';
 
@@ -64,13 +65,15 @@ class SimProcessor extends AudioWorkletProcessor {
     this.telemetry = new Telemetry(this.port, telemetry, sampleRate);
     this.chunks = new ChunkSender(telemetry.chunkSamples, sampleRate, true);
     this.port.onmessage = (e) => this.onMessage(e.data);
-    this.port.postMessage({
+    const ready: WorkletMessage = {
       type: 'ready',
       sampleRate,
       telemetry: this.telemetry.shared ? 'shared' : 'posted',
       maxBlockSize: sc.blockSize,
       modelTaps: this.loop.secondaryPathModel.length,
-    });
+      implementation: describeImplementation(this.loop.engine.controller),
+    };
+    this.port.postMessage(ready);
     this.port.postMessage({
       type: 'model',
       taps: Float32Array.from(this.loop.secondaryPathModel),

@@ -506,16 +506,21 @@ export type ControlMessage =
   | { type: 'attach-analysis'; port: unknown }
   | { type: 'shutdown' };
 
+/**
+ * `implementation` on 'ready', 'configured' and 'switched': what runs the controller now in charge
+ * (for 'switched', the incoming one), as describeImplementation (src/engine/implementation.ts) words
+ * it, e.g. "time domain (wasm SIMD, sample update)" or "tonal".
+ */
 export type WorkletMessage =
-  | { type: 'ready'; sampleRate: number; telemetry: 'shared' | 'posted'; maxBlockSize: number; modelTaps: number }
+  | { type: 'ready'; sampleRate: number; telemetry: 'shared' | 'posted'; maxBlockSize: number; modelTaps: number; implementation: string }
   | { type: 'meters'; frame: Float64Array }
   | { type: 'event'; record: Float64Array }
   | { type: 'identify-recording'; err: Float32Array; ref: Float32Array; probe: ProbeSpec; sampleRate: number }
   | { type: 'weights'; weights: Float32Array }
   | { type: 'model'; taps: Float32Array; truePath: Float32Array | null; sampleRate: number; source: 'scenario' | 'identified' }
-  | { type: 'configured'; modelTaps: number }
+  | { type: 'configured'; modelTaps: number; implementation: string }
   | { type: 'error'; message: string }
-  | { type: 'switched'; toTonal: boolean; crossfadeMs: number }
+  | { type: 'switched'; toTonal: boolean; crossfadeMs: number; implementation: string }
   | { type: 'tone-started'; hz: number; dbfs: number }
   /** measuredDbfs: AES17 RMS level of the samples handed to the output over the tone's steady part. */
   | { type: 'tone-stopped'; hz: number; dbfs: number; measuredDbfs: number; samples: number }

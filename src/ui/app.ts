@@ -35,7 +35,7 @@ import type { AncbTones } from './tones.ts';
 import './tones.ts';
 import type { ScenarioEntry } from './sim-source.ts';
 import type { AncbLiveSetup } from './live-setup.ts';
-import { Session, SWITCH_CROSSFADE_MS, defaultProbe, type ControlSettings, type ModelInfo } from '../web/session.ts';
+import { LIVE_MAX_QUANTUM, Session, SWITCH_CROSSFADE_MS, checkController, checkedSimScenario, defaultProbe, type ControlSettings, type ModelInfo } from '../web/session.ts';
 import { analysis } from '../web/analysis-client.ts';
 import { engineControllerConfig } from '../plant/simulate.ts';
 import { listDevices, loadChoice, reconcileChoice, requestMicrophonePermission, saveChoice, type DeviceChoice, type DeviceLists } from '../web/devices.ts';
@@ -131,6 +131,8 @@ export class AncbApp extends LitElement {
     levelRunning: { state: true },
     levelReport: { state: true },
     levelLinks: { state: true },
+    runsAs: { state: true },
+    refusal: { state: true },
   };
 
   static override styles = [
@@ -332,6 +334,10 @@ export class AncbApp extends LitElement {
   declare levelRunning: boolean;
   declare levelReport: LiveLevelCheckReport | null;
   declare levelLinks: { json: string; html: string } | null;
+  /** What runs the controller now, as the audio thread reported it ('' when stopped). */
+  declare runsAs: string;
+  /** Why the last controller settings were refused (the engine's message), shown in the Controller card. */
+  declare refusal: string;
   readonly calibrations = browserCalibrationStore();
   private toneSeen = false;
 
@@ -374,6 +380,8 @@ export class AncbApp extends LitElement {
     this.levelRunning = false;
     this.levelReport = null;
     this.levelLinks = null;
+    this.runsAs = '';
+    this.refusal = '';
     this.loadCalibrations();
     applyTheme(this.theme);
     this.session = new Session({
@@ -385,6 +393,9 @@ export class AncbApp extends LitElement {
       },
       warning: (w) => {
         this.warnings = [...this.warnings.slice(-3), w];
+      },
+      implementation: (text) => {
+        this.runsAs = text;
       },
     });
     new FrameLoop(this, (t) => this.tick(t));
@@ -732,6 +743,7 @@ export class AncbApp extends LitElement {
     this.busy = 'stop';
     await this.session.stop();
     this.running = false;
+    this.runsAs = '';
     this.controlOn = false;
     this.tone = null;
     this.calBusy = '';
@@ -768,9 +780,21 @@ export class AncbApp extends LitElement {
 
   private async onSettings(e: CustomEvent<ControlSettings>): Promise<void> {
     const next = e.detail;
-    const prev = this.settings.controller;
+    const before = this.settings;
+    const prev = before.controller;
     this.settings = next;
-    const how = await this.session.applySettings(this.engineSettings(next), this.monitorGainDb);
+    this.refusal = '';
+    let how: Awaited<ReturnType<Session['applySettings']>>;
+    try {
+      if (!this.running) this.checkStoppedSettings(next);
+      how = await this.session.applySettings(this.engineSettings(next), this.monitorGainDb);
+    } catch (err) {
+      // refused (e.g. an implementation this platform or block size cannot run): say why, show the
+      // settings the engine still runs with; no fallback is chosen behind the user's back
+      this.settings = before;
+      this.refusal = `Not applied: ${(err as Error).message}`;
+      return;
+    }
     if (how === 'switched') {
       const to = next.controller.algorithm === 'tonal' ? 'the tone follower' : `broadband ${next.controller.algorithm === 'fxlms' ? 'FxLMS' : 'FxNLMS'}`;
       const from = prev.algorithm === 'tonal' ? 'the tone follower' : 'broadband control';
@@ -778,6 +802,17 @@ export class AncbApp extends LitElement {
     } else if (how === 'rebuilt') {
       this.controlOn = false;
       this.status = this.source === 'sim' ? 'Controller rebuilt: the plant restarted with control off.' : 'Controller rebuilt with the current model: control is off, weights start from zero.';
+    }
+  }
+
+  /** With nothing running, refuse now what Start would refuse (the same check the session makes). */
+  private checkStoppedSettings(s: ControlSettings): void {
+    if (this.source === 'sim') {
+      const e = this.scenarioEntry;
+      if (e) checkedSimScenario(e.scenario, s);
+    } else {
+      const fs = this.identified?.sampleRate ?? 48000;
+      checkController(s.controller, this.identified?.model ?? new Float32Array(1), LIVE_MAX_QUANTUM, fs);
     }
   }
 
@@ -1001,7 +1036,8 @@ export class AncbApp extends LitElement {
       <div class="layout">
         <aside>
           ${this.renderSource()}
-          <ancb-controls .settings=${this.settings} .capNote=${live ? this.capNote : ''} @ancb-settings=${(e: CustomEvent<ControlSettings>) => void this.onSettings(e)} @ancb-reset-weights=${() => this.session.resetWeights()}></ancb-controls>
+          <ancb-controls .settings=${this.settings} .capNote=${live ? this.capNote : ''} .runsAs=${this.running ? this.runsAs : ''} .refusal=${this.refusal}
+            @ancb-settings=${(e: CustomEvent<ControlSettings>) => void this.onSettings(e)} @ancb-reset-weights=${() => this.session.resetWeights()}></ancb-controls>
         </aside>
         <section class="display" aria-label="Measurements">
           <div class="card levels">

@@ -11,12 +11,39 @@
  * beside broadband FxLMS, or the reverse), so the engine can keep it ready and a switch of algorithm
  * crossfades instead of restarting. `capNote` (set by the panel) says which cap applies when an SPL
  * cap from a calibration is stricter than the dBFS one.
+ *
+ * Implementation (broadband only): automatic (the engine chooses from the filter lengths and what the
+ * platform runs, src/engine/implementation.ts) or forced. The frequency-domain choices update once
+ * per block, so they set `update: 'block'`; leaving them restores the update the time domain had.
+ * `runsAs` (set by the panel from the audio thread's report) says what runs the controller now;
+ * `refusal` (set by the panel) is the engine's message when it refused a setting.
  */
 import { LitElement, css, html } from 'lit';
 import { shared, formLayout } from './theme.ts';
 import type { ControlSettings } from '../web/session.ts';
 import type { ControllerConfig, TonalSettings } from '../engine/controller-factory.ts';
 import type { FxlmsConfig } from '../dsp/fxlms.ts';
+import type { FxlmsImplementationSettings } from '../engine/implementation.ts';
+
+/** A broadband (FxLMS / FxNLMS) configuration with its implementation fields. */
+type BroadbandConfig = FxlmsConfig & FxlmsImplementationSettings;
+
+/** The Implementation select's options: value, label, and the configuration fields each sets. */
+export const IMPLEMENTATION_CHOICES = [
+  { value: 'auto', label: 'Automatic', set: { implementation: 'auto' } },
+  { value: 'js', label: 'TypeScript time domain', set: { implementation: 'js' } },
+  { value: 'wasm', label: 'wasm SIMD time domain', set: { implementation: 'wasm' } },
+  { value: 'fd-full', label: 'frequency domain (full constraint)', set: { implementation: 'fd', fdConstraint: 'full' } },
+  { value: 'fd-alternating', label: 'frequency domain (alternating constraint)', set: { implementation: 'fd', fdConstraint: 'alternating' } },
+] as const satisfies readonly { value: string; label: string; set: FxlmsImplementationSettings }[];
+
+export type ImplementationChoice = (typeof IMPLEMENTATION_CHOICES)[number]['value'];
+
+/** The select's value for a configuration (the frequency domain's constraint defaults to full). */
+export function implementationChoice(c: BroadbandConfig): ImplementationChoice {
+  if (c.implementation === 'fd') return c.fdConstraint === 'alternating' ? 'fd-alternating' : 'fd-full';
+  return c.implementation ?? 'auto';
+}
 
 export const HARMONICS_RANGE: [number, number] = [1, 8];
 export const TONE_HZ_RANGE: [number, number] = [20, 2000];
@@ -38,6 +65,8 @@ export class AncbControls extends LitElement {
   static override properties = {
     settings: { attribute: false },
     capNote: {},
+    runsAs: {},
+    refusal: {},
     problem: { state: true },
   };
 
@@ -72,6 +101,13 @@ export class AncbControls extends LitElement {
         gap: 0.45rem;
         font-weight: 600;
       }
+      .name {
+        font-weight: 600;
+      }
+      #runs-as {
+        font-family: var(--ancb-mono);
+        font-size: 0.9rem;
+      }
       .check input {
         width: 1.3rem;
         height: 1.3rem;
@@ -84,12 +120,18 @@ export class AncbControls extends LitElement {
   declare problem: string;
   /** Which cap applies (the panel's text; empty when the dBFS cap alone applies). */
   declare capNote: string;
+  /** What runs the controller now (the audio thread's words; '' when nothing runs). */
+  declare runsAs: string;
+  /** The engine's refusal of the last settings ('' when none). */
+  declare refusal: string;
 
   constructor() {
     super();
     this.settings = { controller: DEFAULT_FX, ceilingDbfs: -6, adaptation: true, standby: DEFAULT_TONAL };
     this.problem = '';
     this.capNote = '';
+    this.runsAs = '';
+    this.refusal = '';
   }
 
   override willUpdate(changed: Map<string, unknown>): void {
@@ -97,7 +139,7 @@ export class AncbControls extends LitElement {
     if (changed.has('settings')) {
       const { controller: c, standby: sb } = this.settings;
       if (c.algorithm === 'tonal') this.lastTonal = c;
-      else this.lastFx = c;
+      else this.noteFx(c);
       if (sb && sb.algorithm === 'tonal' && c.algorithm !== 'tonal') this.lastTonal = sb;
       if (sb && sb.algorithm !== 'tonal' && c.algorithm === 'tonal') this.lastFx = sb;
     }
@@ -122,20 +164,37 @@ export class AncbControls extends LitElement {
   }
 
   // the last settings of each controller family, so switching back and forth keeps them
-  private lastFx: FxlmsConfig = DEFAULT_FX;
+  private lastFx: BroadbandConfig = DEFAULT_FX;
   private lastTonal: TonalSettings = DEFAULT_TONAL;
+  /** The update of the last time-domain broadband settings, restored when the frequency domain is left. */
+  private timeDomainUpdate: FxlmsConfig['update'] = undefined;
+
+  private noteFx(c: BroadbandConfig): void {
+    this.lastFx = c;
+    if (c.implementation !== 'fd') this.timeDomainUpdate = c.update;
+  }
 
   private setController(c: ControllerConfig): void {
     if (c.algorithm === 'tonal') this.lastTonal = c;
-    else this.lastFx = c;
+    else this.noteFx(c);
     this.emit({ ...this.settings, controller: c });
+  }
+
+  private setImplementation(e: Event): void {
+    const c = this.settings.controller;
+    const choice = IMPLEMENTATION_CHOICES.find((o) => o.value === (e.target as HTMLSelectElement).value);
+    if (c.algorithm === 'tonal' || !choice) return;
+    const { implementation: _i, fdConstraint: _f, update: _u, ...rest } = c;
+    const fd = choice.set.implementation === 'fd';
+    const update = fd ? 'block' : this.timeDomainUpdate;
+    this.setController({ ...rest, ...choice.set, ...(update !== undefined ? { update } : {}) });
   }
 
   private setAlgorithm(e: Event): void {
     const v = (e.target as HTMLSelectElement).value;
     const c = this.settings.controller;
     if (c.algorithm === 'tonal') this.lastTonal = c;
-    else this.lastFx = c;
+    else this.noteFx(c);
     this.setController(v === 'tonal' ? this.lastTonal : { ...this.lastFx, algorithm: v === 'fxlms' ? 'fxlms' : 'fxnlms' });
   }
 
@@ -189,6 +248,19 @@ export class AncbControls extends LitElement {
         : ''}`;
   }
 
+  private renderImplementation(c: BroadbandConfig): unknown {
+    const choice = implementationChoice(c);
+    return html`<label for="impl">Implementation</label>
+      <select id="impl" @change=${this.setImplementation} .value=${choice}>
+        ${IMPLEMENTATION_CHOICES.map((o) => html`<option value=${o.value} ?selected=${o.value === choice}>${o.label}</option>`)}
+      </select>
+      <span></span><span class="unit">${choice === 'auto'
+        ? 'from the filter lengths and what this browser runs'
+        : choice.startsWith('fd')
+          ? 'updates once per block; partition = block size (a power of two)'
+          : 'forced; refused where it cannot run'}</span>`;
+  }
+
   protected override render(): unknown {
     const c = this.settings.controller;
     const logMu = Math.log10(c.stepSize);
@@ -204,7 +276,10 @@ export class AncbControls extends LitElement {
         </select>
 
         ${c.algorithm === 'tonal' ? this.renderTonal(c) : html`<label for="taps">Filter length</label>
-        <span class="pair"><input id="taps" type="number" min=${TAPS_RANGE[0]} max=${TAPS_RANGE[1]} step="1" .value=${String(c.taps)} @change=${this.setTaps} /><span class="unit">taps</span></span>`}
+        <span class="pair"><input id="taps" type="number" min=${TAPS_RANGE[0]} max=${TAPS_RANGE[1]} step="1" .value=${String(c.taps)} @change=${this.setTaps} /><span class="unit">taps</span></span>
+        ${this.renderImplementation(c)}`}
+        <span class="name" id="runs-as-l">Runs as</span>
+        <output id="runs-as" aria-labelledby="runs-as-l" aria-live="polite">${this.runsAs || html`<span class="unit">shown once the audio runs</span>`}</output>
 
         <label for="mu">Step size μ</label>
         <span class="pair">
@@ -234,7 +309,7 @@ export class AncbControls extends LitElement {
           @change=${(e: Event) => this.emit({ ...this.settings, adaptation: (e.target as HTMLInputElement).checked })} />Adapt (clear to pause: weights frozen)</label>
         <button id="reset" @click=${() => this.dispatchEvent(new CustomEvent('ancb-reset-weights', { bubbles: true, composed: true }))}>Reset weights</button>
       </div>
-      <p class="problem" role="alert">${this.problem}</p>
+      <p class="problem" role="alert">${this.problem || this.refusal}</p>
     </section>`;
   }
 }

@@ -11,7 +11,7 @@
 import './zod-jitless.ts';
 import type { IAudioContext, IAudioWorkletNode, GainNode } from 'standardized-audio-context';
 import { parseScenario, type Scenario } from '../plant/scenario.ts';
-import { trueSecondaryPath } from '../plant/simulate.ts';
+import { engineControllerConfig, trueSecondaryPath } from '../plant/simulate.ts';
 import { createController, type ControllerConfig } from '../engine/controller-factory.ts';
 import { DEFAULT_CROSSFADE_MS } from '../engine/engine.ts';
 import type { HandedToOutput, LevelCheckRequest, PanelEvent, ProbeSpec, WorkletMessage } from '../engine/messages.ts';
@@ -23,6 +23,11 @@ import { closeInputs, openInputs, type DeviceChoice, type OpenedInputs } from '.
 import { LatencyWatch } from './latency-watch.ts';
 import { canChooseOutput, contextStats, setOutputDevice } from './native-context.ts';
 
+/**
+ * Largest render quantum the live engine is built for (Web Audio's default quantum; a larger one is
+ * split by the processor). It is also the frequency-domain FxLMS partition, live.
+ */
+export const LIVE_MAX_QUANTUM = 128;
 /** Fade of the master gain at start and stop, s. */
 export const MASTER_RAMP_S = 0.05;
 /** Listening level cap of the simulated plant, dBFS sample peak. */
@@ -73,6 +78,8 @@ export interface SessionHandlers {
   /** The model may no longer match the acoustics (adaptation has been frozen). */
   stale(reason: string): void;
   warning(text: string): void;
+  /** What runs the controller in charge, reported by the audio thread on every (re)configuration and switch. */
+  implementation(text: string): void;
 }
 
 /** The scenario's controller with the panel's settings in place (its model-imperfection fields kept). */
@@ -99,7 +106,17 @@ export function scenarioController(sc: Scenario, c: ControllerConfig): Scenario[
       ...keep,
     };
   }
-  return { algorithm: c.algorithm, taps: c.taps, stepSize: c.stepSize, ...leak, ...keep };
+  return {
+    algorithm: c.algorithm,
+    taps: c.taps,
+    stepSize: c.stepSize,
+    ...leak,
+    ...(c.regularization !== undefined ? { regularization: c.regularization } : {}),
+    ...(c.update !== undefined ? { update: c.update } : {}),
+    ...(c.implementation !== undefined ? { implementation: c.implementation } : {}),
+    ...(c.fdConstraint !== undefined ? { fdConstraint: c.fdConstraint } : {}),
+    ...keep,
+  };
 }
 
 /**
@@ -112,10 +129,18 @@ export function scenarioForPanel(sc: Scenario, settings: ControlSettings): Scena
   return parseScenario({ ...sc, outputCeilingDbfs: settings.ceilingDbfs, controller: scenarioController(sc, settings.controller) });
 }
 
+/**
+ * The fixed parts of a broadband configuration, with the defaults written out: what decides which
+ * code runs it (src/engine/implementation.ts) and how it updates.
+ */
+function broadbandBuild(c: Exclude<ControllerConfig, { algorithm: 'tonal' }>): string {
+  return `${c.taps}/${c.update ?? 'sample'}/${c.implementation ?? 'auto'}/${c.fdConstraint ?? 'full'}`;
+}
+
 /** Whether going from one controller setting to another needs a new engine (weights start again). */
 export function needsRebuild(a: ControllerConfig, b: ControllerConfig): boolean {
   if (a.algorithm !== b.algorithm) return true;
-  if (a.algorithm !== 'tonal' && b.algorithm !== 'tonal') return a.taps !== b.taps;
+  if (a.algorithm !== 'tonal' && b.algorithm !== 'tonal') return broadbandBuild(a) !== broadbandBuild(b);
   return false;
 }
 
@@ -130,7 +155,7 @@ export function inPlaceReachable(built: ControllerConfig, target: ControllerConf
     return built.minHz === target.minHz && built.maxHz === target.maxHz && built.harmonicsCheck === target.harmonicsCheck && built.regularization === target.regularization;
   }
   if (built.algorithm !== 'tonal' && target.algorithm !== 'tonal') {
-    return built.taps === target.taps && built.update === target.update && built.regularization === target.regularization;
+    return broadbandBuild(built) === broadbandBuild(target) && built.regularization === target.regularization;
   }
   return false;
 }
@@ -149,6 +174,24 @@ export function usableStandby(standby: ControllerConfig | undefined, active: Con
   } catch {
     return null;
   }
+}
+
+/**
+ * Build the controller the audio thread would build, here on the page, and throw its refusal (a
+ * RangeError naming the field and the reason, e.g. a forced frequency-domain implementation with a
+ * block size that is not a power of two). Run before anything is stopped, so a refused setting
+ * leaves the running engine alone. The page and the worklet share the platform's WebAssembly
+ * support and the page's Content-Security-Policy, so they choose alike.
+ */
+export function checkController(c: ControllerConfig, model: Float32Array, block: number, rate: number): void {
+  createController(c, model, block, rate);
+}
+
+/** The scenario as the panel would run it (scenarioForPanel), after checkController has accepted its controller. */
+export function checkedSimScenario(sc: Scenario, settings: ControlSettings): Scenario {
+  const scenario = scenarioForPanel(sc, settings);
+  checkController(engineControllerConfig(scenario), Float32Array.from(trueSecondaryPath(scenario)), scenario.blockSize, scenario.sampleRate);
+  return scenario;
 }
 
 /** Scenarios whose sources drift or come from files cannot run forever: they stop at durationS. */
@@ -219,7 +262,9 @@ export class Session {
   }
 
   private onWorkletMessage(m: WorkletMessage): void {
-    if (m.type === 'model') {
+    if (m.type === 'ready' || m.type === 'configured' || m.type === 'switched') {
+      this.handlers.implementation(m.implementation);
+    } else if (m.type === 'model') {
       this.handlers.model({ taps: m.taps, truePath: m.truePath, sampleRate: m.sampleRate, source: m.source });
     } else if (m.type === 'error') {
       this.handlers.warning(m.message);
@@ -254,9 +299,9 @@ export class Session {
 
   /** Run a scenario's simulated plant; control starts off. */
   async startSim(sc: Scenario, settings: ControlSettings, monitorGainDb: number): Promise<void> {
+    const scenario = checkedSimScenario(sc, settings);
     await this.stop();
     const ctx = await this.context(sc.sampleRate);
-    const scenario = scenarioForPanel(sc, settings);
     const telemetry = new TelemetryChannel(30, 4096, this.forcePosted);
     const standby = usableStandby(settings.standby, settings.controller, Float32Array.from(trueSecondaryPath(scenario)), scenario.blockSize, scenario.sampleRate);
     const node = createSimNode(ctx, {
@@ -284,8 +329,11 @@ export class Session {
 
   /** Open the microphones and run the live processor with control off. */
   async startLive(choice: DeviceChoice, settings: ControlSettings): Promise<void> {
-    await this.stop();
     const ctx = await this.context(undefined);
+    const fs = ctx.sampleRate;
+    const model = this.identified && this.identified.sampleRate === fs ? this.identified.model : new Float32Array(1);
+    checkController(settings.controller, model, LIVE_MAX_QUANTUM, fs);
+    await this.stop();
     const inputs = await openInputs(choice);
     for (const w of inputs.warnings) this.handlers.warning(w);
     if (choice.outputDeviceId) {
@@ -295,9 +343,7 @@ export class Session {
     const errOnly = choice.layout === 'err-only';
     const mic = buildMicGraph(ctx, inputs, errOnly);
     const telemetry = new TelemetryChannel(30, 4096, this.forcePosted);
-    const fs = ctx.sampleRate;
-    const model = this.identified && this.identified.sampleRate === fs ? this.identified.model : new Float32Array(1);
-    const standby = usableStandby(settings.standby, settings.controller, model, 128, fs);
+    const standby = usableStandby(settings.standby, settings.controller, model, LIVE_MAX_QUANTUM, fs);
     const node = createLiveNode(ctx, {
       controller: settings.controller,
       ...(standby ? { standbyController: standby } : {}),
@@ -305,7 +351,7 @@ export class Session {
       ceilingDbfs: settings.ceilingDbfs,
       startMode: 'idle',
       inputLayout: errOnly ? 'err-only' : 'ref-err',
-      maxQuantum: 128,
+      maxQuantum: LIVE_MAX_QUANTUM,
       telemetry: telemetry.options,
     });
     mic.merger.connect(node);
@@ -379,7 +425,7 @@ export class Session {
 
   /** A new live engine with the settings' controller (and standby) on `model`; control off. */
   private async configureLive(settings: ControlSettings, model: Float32Array): Promise<void> {
-    const standby = usableStandby(settings.standby, settings.controller, model, 128, this.sampleRate);
+    const standby = usableStandby(settings.standby, settings.controller, model, LIVE_MAX_QUANTUM, this.sampleRate);
     const configured = this.message('configured', 5000);
     this.post({ type: 'configure', controller: settings.controller, secondaryPathModel: model, startMode: 'idle', ...(standby ? { standbyController: standby } : {}) });
     await configured;
@@ -403,12 +449,23 @@ export class Session {
    * Apply control settings. Step size, leakage and cap change in place. A switch between broadband
    * FxLMS and the tone follower hands over to the engine's standby controller with a crossfade
    * (SWITCH_CROSSFADE_MS; no restart, no click) when the standby was built for the requested
-   * settings; otherwise algorithm or filter length rebuild the engine (live: with the current
-   * model; simulated: the plant restarts).
+   * settings; otherwise algorithm, filter length, update or implementation rebuild the engine (live:
+   * with the current model; simulated: the plant restarts). A rebuild the platform or the
+   * configuration refuses (a forced implementation that cannot run here) rejects with the engine's
+   * message and leaves the running engine and these settings as they were.
    */
   async applySettings(next: ControlSettings, monitorGainDb: number): Promise<'in-place' | 'rebuilt' | 'switched'> {
     const prev = this.settings;
     this.settings = { ...next, controller: { ...next.controller } };
+    try {
+      return await this.apply(prev, next, monitorGainDb);
+    } catch (e) {
+      this.settings = prev;
+      throw e;
+    }
+  }
+
+  private async apply(prev: ControlSettings | null, next: ControlSettings, monitorGainDb: number): Promise<'in-place' | 'rebuilt' | 'switched'> {
     if (!this.node || !prev || !this.built) return 'in-place';
     const c = next.controller;
     const built = this.built;
@@ -423,9 +480,11 @@ export class Session {
       how = 'switched';
     } else if (needsRebuild(built.active, c)) {
       if (this.kind === 'sim' && this.scenario) {
-        await this.startSim(this.scenario, this.settings, monitorGainDb);
+        // startSim checks the controller before it stops the running plant
+        await this.startSim(this.scenario, this.settings!, monitorGainDb);
       } else {
-        await this.configureLive(this.settings, this.identified?.model ?? new Float32Array(1));
+        // the live processor builds the new engine beside the old one and keeps the old on a refusal
+        await this.configureLive(this.settings!, this.identified?.model ?? new Float32Array(1));
         if (!next.adaptation || this.stale) this.post({ type: 'set-adaptation', on: false });
       }
       return 'rebuilt';

@@ -31,7 +31,7 @@ describe('panel from the keyboard', () => {
       await page.keyboard.press('Tab');
       seen.add(await focusedName(page));
     }
-    const expected = ['source=sim', 'safety', 'theme', 'start', 'scenario', 'listen', 'src=on', 'alg', 'taps', 'mu-slider', 'mu', 'leak', 'cap-slider', 'cap', 'adapt', 'reset'];
+    const expected = ['source=sim', 'safety', 'theme', 'start', 'scenario', 'listen', 'src=on', 'alg', 'taps', 'impl', 'mu-slider', 'mu', 'leak', 'cap-slider', 'cap', 'adapt', 'reset'];
     expect(expected.filter((n) => !seen.has(n))).toEqual([]);
   });
 
@@ -68,6 +68,54 @@ describe('panel from the keyboard', () => {
     const before = await page.evaluate(() => document.documentElement.dataset.theme);
     await page.keyboard.press('Enter');
     expect(await page.evaluate(() => document.documentElement.dataset.theme)).not.toBe(before);
+  });
+
+  it('should show what runs the controller, and rebuild on the implementation chosen from the keyboard', async () => {
+    const runsAs = page.locator('#runs-as');
+    // automatic: Chromium runs WebAssembly SIMD, so the time-domain kernel in wasm (src/engine/implementation.ts)
+    await expect.poll(() => runsAs.textContent(), { timeout: 5000 }).toMatch(/^time domain \(wasm SIMD, sample update\)$/);
+    expect(await tabTo(page, 'impl')).toBe(true);
+    // type-ahead: "f" picks the first frequency-domain option, the full constraint
+    await page.keyboard.press('f');
+    await expect.poll(() => runsAs.textContent(), { timeout: 10000 }).toMatch(/^frequency domain \(wasm SIMD spectral loops, full constraint, partition 128\)$/);
+    const c = await page.evaluate(() => document.querySelector('ancb-app')!.settings.controller);
+    expect(c).toMatchObject({ implementation: 'fd', fdConstraint: 'full', update: 'block' });
+    expect(await page.locator('#start').textContent()).toContain('Stop');
+  });
+
+  it('should refuse a choice the platform cannot run, say why, and keep the engine running', async () => {
+    // a platform without WebAssembly: the same build, its Content-Security-Policy without
+    // 'wasm-unsafe-eval', so compiling the SIMD kernels is refused (src/dsp/wasm-module.ts)
+    const noWasm = await browser.newPage({ viewport: { width: 1500, height: 1000 } });
+    await noWasm.route('**/demo/index.html', async (route) => {
+      const response = await route.fetch();
+      const body = (await response.text()).replace(" 'wasm-unsafe-eval'", '');
+      await route.fulfill({ response, body });
+    });
+    try {
+      await noWasm.goto(`${inject('baseUrl')}/demo/index.html`);
+      await noWasm.locator('#start').click();
+      await noWasm.locator('#start', { hasText: 'Stop' }).waitFor({ timeout: 15000 });
+      const runsAs = noWasm.locator('#runs-as');
+      // automatic falls back to TypeScript (time or frequency domain, by the filter lengths), said openly
+      await expect.poll(() => runsAs.textContent(), { timeout: 5000 }).toMatch(/\(TypeScript/);
+      const before = await runsAs.textContent();
+      const audioTime = (): Promise<number> => noWasm.evaluate(() => document.querySelector('ancb-app')!.display.timeS);
+      await expect.poll(audioTime, { timeout: 5000 }).toBeGreaterThan(1);
+      const t0 = await audioTime();
+      await noWasm.locator('#impl').selectOption('wasm');
+      const problem = noWasm.locator('ancb-controls .problem');
+      await problem.filter({ hasText: 'WebAssembly SIMD' }).waitFor({ timeout: 5000 });
+      expect(await problem.textContent()).toContain('controller.implementation "wasm"');
+      // nothing changed behind the message: same engine, the choice it runs shown, the plant's clock ran on
+      await expect.poll(() => noWasm.locator('#impl').inputValue()).toBe('auto');
+      expect(await runsAs.textContent()).toBe(before);
+      await noWasm.waitForTimeout(300);
+      expect(await audioTime()).toBeGreaterThan(t0);
+      expect(await noWasm.locator('#start').textContent()).toContain('Stop');
+    } finally {
+      await noWasm.close();
+    }
   });
 
   it('should show the hearing-safety cautions before a live start, and honour Escape', async () => {
