@@ -1,4 +1,5 @@
 import FFT from 'fft.js';
+import { copyPrefix } from './copy.ts';
 import type { Controller } from './controller.ts';
 import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig } from './fxlms.ts';
 import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.ts';
@@ -286,9 +287,7 @@ export class FdFxlmsController implements Controller {
 
   /** Copy the secondary-path model into `out`; returns the count written. */
   copySecondaryPathModel(out: Float32Array): number {
-    const n = Math.min(out.length, this.modelTaps);
-    for (let i = 0; i < n; i++) out[i] = this.modelTime[i]!;
-    return n;
+    return copyPrefix(this.modelTime, out, this.modelTaps);
   }
 
   reset(): void {
@@ -330,11 +329,6 @@ export class FdFxlmsController implements Controller {
     return s;
   }
 
-  /**
-   * Copy the L time-domain taps into `out`. With the alternating constraint these are the first P
-   * samples of each partition's impulse response, i.e. the weights as the next projection leaves
-   * them. Costs K_L/2 inverse FFTs; meant for displays and tests, not for every block.
-   */
   setStepSize(mu: number): void {
     if (mu > 0 && Number.isFinite(mu)) this.stepSize = mu;
   }
@@ -343,6 +337,11 @@ export class FdFxlmsController implements Controller {
     if (gamma >= 0 && Number.isFinite(gamma)) this.leakage = gamma;
   }
 
+  /**
+   * Copy the L time-domain taps into `out`. With the alternating constraint these are the first P
+   * samples of each partition's impulse response, i.e. the weights as the next projection leaves
+   * them. Costs K_L/2 inverse FFTs; meant for displays and tests, not for every block.
+   */
   copyWeights(out: Float32Array | Float64Array): number {
     const n = Math.min(out.length, this.taps);
     const P = this.partitionSize;

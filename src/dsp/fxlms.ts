@@ -1,4 +1,5 @@
 import type { Controller } from './controller.ts';
+import { copyPrefix, replacePadded } from './copy.ts';
 
 /**
  * Filtered-reference LMS (FxLMS) feedforward controller: one reference, one error microphone.
@@ -111,16 +112,12 @@ export class FxlmsController implements Controller {
   }
 
   setSecondaryPathModel(taps: ArrayLike<number>): void {
-    const n = Math.min(taps.length, this.modelTaps);
-    for (let i = 0; i < n; i++) this.model[i] = taps[i]!;
-    for (let i = n; i < this.modelTaps; i++) this.model[i] = 0;
+    replacePadded(this.model, taps, this.modelTaps);
   }
 
   /** Copy the secondary-path model into `out`; returns the count written. */
   copySecondaryPathModel(out: Float32Array): number {
-    const n = Math.min(out.length, this.modelTaps);
-    for (let i = 0; i < n; i++) out[i] = this.model[i]!;
-    return n;
+    return copyPrefix(this.model, out, this.modelTaps);
   }
 
   /** Clear the weights only (delay lines keep their history). */

@@ -1,4 +1,5 @@
 import type { Controller } from './controller.ts';
+import { copyPrefix, replacePadded } from './copy.ts';
 import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig } from './fxlms.ts';
 import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.ts';
 
@@ -113,16 +114,12 @@ export class WasmFxlmsController implements Controller {
 
   /** Replace the secondary-path model in place (M taps at most; missing taps are zero). Not per block. */
   setSecondaryPathModel(taps: ArrayLike<number>): void {
-    const n = Math.min(taps.length, this.modelTaps);
-    for (let i = 0; i < n; i++) this.model[i] = taps[i]!;
-    for (let i = n; i < this.modelTaps; i++) this.model[i] = 0;
+    replacePadded(this.model, taps, this.modelTaps);
   }
 
   /** Copy the secondary-path model into `out`; returns the count written. */
   copySecondaryPathModel(out: Float32Array): number {
-    const n = Math.min(out.length, this.modelTaps);
-    for (let i = 0; i < n; i++) out[i] = this.model[i]!;
-    return n;
+    return copyPrefix(this.model, out, this.modelTaps);
   }
 
   /** ‖f(n)‖² of the filtered-reference window. */
