@@ -6,6 +6,7 @@
  * file, 2 for bad flags.
  */
 import { parseArgs } from 'node:util';
+import { describeEventValues } from '../engine/events.ts';
 import { createOutputCalibration, type OutputCalibration } from '../analysis/calibration.ts';
 import { TruePeakMeter } from '../dsp/true-peak.ts';
 import { amplitudeToDb } from '../dsp/units.ts';
@@ -189,7 +190,7 @@ export function readableSummary(rep: CheckLimitsReport): string {
   }
   const shown = [...rep.events.map((e) => ({ e, where: 'check' })), ...(cl?.events ?? []).map((e) => ({ e, where: 'loop ' }))];
   for (const { e, where } of shown.slice(0, 12)) {
-    lines.push(`event ${where}   ${e.timeS.toFixed(3)} s  ${e.cause} → ${e.action}  ${Object.entries(e.values).map(([k, v]) => `${k}=${Number.isFinite(v) ? +v.toPrecision(4) : v}`).join(' ')}`);
+    lines.push(`event ${where}   ${e.timeS.toFixed(3)} s  ${e.cause} → ${e.action}  ${describeEventValues(e)}`);
   }
   if (shown.length > 12) lines.push(`event         … ${shown.length - 12} more in report.json`);
   for (const n of rep.notes) lines.push(`note          ${n}`);

@@ -11,6 +11,7 @@ import { REPORT_FILE, simulationReportFiles } from '../io/report-html-node.ts';
 import { scenarioCeilingDbfs } from '../plant/scenario.ts';
 import { DEFAULT_CEILING_DBFS } from '../engine/engine.ts';
 import type { EngineEvent } from '../engine/events.ts';
+import { describeEventValues } from '../engine/events.ts';
 import { fmtDb, safeJson, stamp, UsageError, type Stamp } from './common.ts';
 import { progressBar } from './progress.ts';
 
@@ -100,7 +101,7 @@ export function readableSummary(s: SimulateSummary): string {
   ];
   for (const t of s.tones) lines.push(`tone          ${t.hz.toFixed(1)} Hz (source ${t.source}, harmonic ${t.harmonic}): ${fmtDb(t.attenuationDb)}`);
   const shown = s.events.filter((e) => e.cause !== 'limiter-engaged');
-  for (const e of shown.slice(0, 8)) lines.push(`event         ${e.timeS.toFixed(3)} s  ${e.cause} → ${e.action}  ${Object.entries(e.values).map(([k, v]) => `${k}=${Number.isFinite(v) ? +v.toPrecision(4) : v}`).join(' ')}`);
+  for (const e of shown.slice(0, 8)) lines.push(`event         ${e.timeS.toFixed(3)} s  ${e.cause} → ${e.action}  ${describeEventValues(e)}`);
   if (shown.length > 8) lines.push(`event         … ${shown.length - 8} more in summary.json`);
   if (s.trackingErrorHz) lines.push(`tracking      RMS ${s.trackingErrorHz.rms.toFixed(2)} Hz, max ${s.trackingErrorHz.max.toFixed(2)} Hz (from first lock)`);
   for (const [k, v] of Object.entries(s.notes)) lines.push(`note          ${k}: ${v}`);

@@ -269,3 +269,16 @@ export function drainEvents(ring: EventRing): EngineEvent[] {
   ring.drainInto(batch);
   return decodeEventBatch(batch);
 }
+
+/**
+ * An event's values in words for a readable summary: `name=value` pairs, numbers to four significant
+ * digits, and the non-finite detector's source code named ('ref', 'err', 'out', 'weights').
+ */
+export function describeEventValues(e: EngineEvent): string {
+  return Object.entries(e.values)
+    .map(([k, v]) => {
+      if (e.cause === 'non-finite' && k === 'source' && Number.isInteger(v)) return `source=${NON_FINITE_SOURCES[v] ?? v}`;
+      return `${k}=${Number.isFinite(v) ? +v.toPrecision(4) : v}`;
+    })
+    .join(' ');
+}
