@@ -25,6 +25,7 @@ import { ceilingDbfsForPeakSpl, createOutputCalibration, dbfsToDbSpl, SINE_CREST
 import type { EffectiveCeiling } from '../plant/level-cap-check.ts';
 import type { StoredMicCalibration, StoredOutputCalibration } from '../io/calibration-store.ts';
 import { TONE_DBFS_RANGE, TONE_MAX_S, TONE_MIN_HZ } from '../engine/messages.ts';
+import { emit } from './emit.ts';
 
 /** Default calibration tone level, dBFS (AES17): low enough for a first try, loud enough for most meters. */
 export const DEFAULT_TONE_DBFS = -30;
@@ -136,10 +137,6 @@ export class AncbCalibration extends LitElement {
     this.problem = '';
   }
 
-  private fire(name: string, detail?: unknown): void {
-    this.dispatchEvent(new CustomEvent(name, { detail, bubbles: true, composed: true }));
-  }
-
   /** A number field's value within [lo, hi], or null with the problem stated (field, range, value). */
   private read(id: string, field: string, lo: number, hi: number): number | null {
     const r = readNumberField(this.renderRoot, id, field, lo, hi);
@@ -180,14 +177,14 @@ export class AncbCalibration extends LitElement {
 
   private confirmTone(ok: boolean): void {
     this.renderRoot.querySelector<HTMLDialogElement>('#tone-confirm')?.close();
-    if (ok) this.fire('ancb-tone', { hz: this.toneHz, dbfs: this.toneDbfs });
+    if (ok) emit(this, 'ancb-tone', { hz: this.toneHz, dbfs: this.toneDbfs });
   }
 
   private saveReading(): void {
     this.problem = '';
     const spl = this.read('spl-reading', 'Sound level meter reading (dB SPL)', -50, 200);
     if (spl === null) return;
-    this.fire('ancb-tone-save', { measuredDbSpl: spl });
+    emit(this, 'ancb-tone-save', { measuredDbSpl: spl });
   }
 
   // ---------------------------------------------------------------- SPL cap
@@ -195,7 +192,7 @@ export class AncbCalibration extends LitElement {
   private applySplCap(): void {
     this.problem = '';
     const v = this.read('spl-cap', 'Cap at the ear position (dB SPL, peak)', SPL_CAP_RANGE[0], SPL_CAP_RANGE[1]);
-    if (v !== null) this.fire('ancb-spl-cap', { peakDbSpl: v });
+    if (v !== null) emit(this, 'ancb-spl-cap', { peakDbSpl: v });
   }
 
   // ---------------------------------------------------------------- microphone
@@ -210,7 +207,7 @@ export class AncbCalibration extends LitElement {
     if (from === null) return;
     const to = this.read('mic-to', 'Flat to (Hz)', hz, 0.5 * this.sampleRate);
     if (to === null) return;
-    this.fire('ancb-mic-measure', { knownDbSpl: known, hz, validFromHz: from, validToHz: to, seconds: MIC_RECORD_S });
+    emit(this, 'ancb-mic-measure', { knownDbSpl: known, hz, validFromHz: from, validToHz: to, seconds: MIC_RECORD_S });
   }
 
   // ---------------------------------------------------------------- render
@@ -232,7 +229,7 @@ export class AncbCalibration extends LitElement {
             <td data-field="measured" data-value=${dv(p.measuredDbSpl)}>${fmtDb(p.measuredDbSpl, 1)}</td>
             <td data-field="sensitivity" data-value=${dv(p.sensitivityDbSpl)}>${fmtDb(p.sensitivityDbSpl, 2)}</td>
             <td data-field="cap-spl" data-value=${dv(capPeak)}>${fmtDb(capPeak ?? NaN, 1)}</td>
-            <td><button class="small" aria-label=${`Remove the reading at ${fmtHz(p.hz)}`} @click=${() => this.fire('ancb-cal-remove', { hz: p.hz })}>✕</button></td>
+            <td><button class="small" aria-label=${`Remove the reading at ${fmtHz(p.hz)}`} @click=${() => emit(this, 'ancb-cal-remove', { hz: p.hz })}>✕</button></td>
           </tr>`;
         })}
       </tbody>
@@ -249,7 +246,7 @@ export class AncbCalibration extends LitElement {
       </div>
       <div class="row">
         <button id="spl-cap-apply" @click=${this.applySplCap}>Set SPL cap</button>
-        <button id="spl-cap-clear" ?disabled=${peak === null} @click=${() => this.fire('ancb-spl-cap', { peakDbSpl: null })}>Clear SPL cap</button>
+        <button id="spl-cap-clear" ?disabled=${peak === null} @click=${() => emit(this, 'ancb-spl-cap', { peakDbSpl: null })}>Clear SPL cap</button>
       </div>
       ${rule
         ? html`<p class="small" id="spl-rule">
@@ -288,7 +285,7 @@ export class AncbCalibration extends LitElement {
             </div>
             <div class="row">
               <button id="tone-save" class="primary" ?disabled=${this.busy !== ''} @click=${this.saveReading}>Save reading and stop</button>
-              <button id="tone-stop" ?disabled=${this.busy !== ''} @click=${() => this.fire('ancb-tone-stop')}>Stop without saving</button>
+              <button id="tone-stop" ?disabled=${this.busy !== ''} @click=${() => emit(this, 'ancb-tone-stop')}>Stop without saving</button>
             </div>
           </div>`}
       ${cal
@@ -323,7 +320,7 @@ export class AncbCalibration extends LitElement {
       </div>
       <div class="row">
         <button id="mic-measure" ?disabled=${!this.open || this.busy !== ''} @click=${this.measureMic}>${this.busy === 'mic' ? 'Recording…' : `Record ${MIC_RECORD_S} s and calibrate`}</button>
-        <button id="mic-clear" ?disabled=${!m} @click=${() => this.fire('ancb-mic-clear')}>Forget</button>
+        <button id="mic-clear" ?disabled=${!m} @click=${() => emit(this, 'ancb-mic-clear')}>Forget</button>
       </div>
       ${m
         ? html`<p class="small" id="mic-result">0 dBFS at this input is <b id="mic-sensitivity" data-value=${dv(m.calibration.sensitivityDbSpl)}>${fmtDb(m.calibration.sensitivityDbSpl, 2)} dB SPL</b> (recorded ${fmtDb(m.measuredDbfs, 2)} dBFS for ${fmtDb(m.knownDbSpl, 1)} dB SPL at ${fmtHz(m.calibration.hz)}); the error meter reads dB SPL for sound within ${fmtHz(m.calibration.validFromHz)} … ${fmtHz(m.calibration.validToHz)}.</p>`

@@ -24,6 +24,7 @@ import type { ControlSettings } from '../web/session.ts';
 import type { ControllerConfig, TonalSettings } from '../engine/controller-factory.ts';
 import type { FxlmsConfig } from '../dsp/fxlms.ts';
 import type { FxlmsImplementationSettings } from '../engine/implementation.ts';
+import { emit } from './emit.ts';
 
 /** A broadband (FxLMS / FxNLMS) configuration with its implementation fields. */
 type BroadbandConfig = FxlmsConfig & FxlmsImplementationSettings;
@@ -150,7 +151,7 @@ export class AncbControls extends LitElement {
     next = { ...next, standby: c.algorithm === 'tonal' ? this.lastFx : this.lastTonal };
     this.settings = next;
     this.problem = '';
-    this.dispatchEvent(new CustomEvent<ControlSettings>('ancb-settings', { detail: next, bubbles: true, composed: true }));
+    emit(this, 'ancb-settings', next);
   }
 
   private numberIn(e: Event, field: string, [lo, hi]: [number, number], integer = false): number | null {
@@ -307,7 +308,7 @@ export class AncbControls extends LitElement {
       <div class="row">
         <label class="check"><input id="adapt" type="checkbox" .checked=${this.settings.adaptation}
           @change=${(e: Event) => this.emit({ ...this.settings, adaptation: (e.target as HTMLInputElement).checked })} />Adapt (clear to pause: weights frozen)</label>
-        <button id="reset" @click=${() => this.dispatchEvent(new CustomEvent('ancb-reset-weights', { bubbles: true, composed: true }))}>Reset weights</button>
+        <button id="reset" @click=${() => emit(this, 'ancb-reset-weights')}>Reset weights</button>
       </div>
       <p class="problem" role="alert">${this.problem || this.refusal}</p>
     </section>`;

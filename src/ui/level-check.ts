@@ -18,6 +18,7 @@ import './plot.ts';
 import type { LiveLevelCheckReport } from '../web/level-check-report.ts';
 import type { LevelCheckRequest } from '../engine/messages.ts';
 import { DEFAULT_HOLD_S, DEFAULT_GAP_S, DEFAULT_OVER_DB, DEFAULT_START_DBFS } from '../plant/level-cap-check.ts';
+import { emit } from './emit.ts';
 
 export const LC_RAMP_S_DEFAULT = 2;
 export const LC_START_RANGE: [number, number] = [-90, -10];
@@ -168,10 +169,6 @@ export class AncbLevelCheck extends LitElement {
     if (bar && Number.isFinite(fraction)) bar.value = fraction;
   }
 
-  private fire(name: string, detail?: unknown): void {
-    this.dispatchEvent(new CustomEvent(name, { detail, bubbles: true, composed: true }));
-  }
-
   private read(id: string, field: string, lo: number, hi: number): number | null {
     const r = readNumberField(this.renderRoot, id, field, lo, hi);
     if ('problem' in r) {
@@ -199,7 +196,7 @@ export class AncbLevelCheck extends LitElement {
 
   private confirm(ok: boolean): void {
     this.renderRoot.querySelector<HTMLDialogElement>('#lc-confirm')?.close();
-    if (ok && this.pendingSignal) this.fire('ancb-level-check', { signal: this.pendingSignal });
+    if (ok && this.pendingSignal) emit(this, 'ancb-level-check', { signal: this.pendingSignal });
     this.pendingSignal = null;
   }
 
@@ -259,7 +256,7 @@ export class AncbLevelCheck extends LitElement {
       <div class="row"><label class="check"><input id="lc-adversarial" type="checkbox" />Also adversarial patterns (harsh: square waves near Nyquist, steps, bursts)</label></div>
       <div class="row">
         ${this.running
-          ? html`<button id="lc-cancel" @click=${() => this.fire('ancb-level-check-cancel')}>Stop the check</button>`
+          ? html`<button id="lc-cancel" @click=${() => emit(this, 'ancb-level-check-cancel')}>Stop the check</button>`
           : html`<button id="lc-run" class="primary" ?disabled=${!this.open} @click=${() => void this.ask()}>Run level check…</button>`}
       </div>
       ${this.running ? html`<progress id="lc-progress" max="1" value="0" aria-label="level check progress"></progress>` : ''}

@@ -11,6 +11,7 @@ import { shared, formLayout } from './theme.ts';
 import { fmtDb, fmtMs } from './format.ts';
 import type { DeviceChoice, DeviceLists, MicLayout } from '../web/devices.ts';
 import type { CausalityVerdict, GeometryResult, IdentificationResult } from '../analysis/live-analysis.ts';
+import { emit } from './emit.ts';
 
 export const PROBE_RANGE_DBFS: [number, number] = [-50, -12];
 
@@ -108,13 +109,9 @@ export class AncbLiveSetup extends LitElement {
     if (bar && Number.isFinite(fraction)) bar.value = fraction;
   }
 
-  private fire(name: string, detail?: unknown): void {
-    this.dispatchEvent(new CustomEvent(name, { detail, bubbles: true, composed: true }));
-  }
-
   private change(patch: Partial<DeviceChoice>): void {
     this.choice = { ...this.choice, ...patch };
-    this.fire('ancb-choice', this.choice);
+    emit(this, 'ancb-choice', this.choice);
   }
 
   private deviceSelect(id: string, label: string, value: string, list: { deviceId: string; label: string }[], key: 'refDeviceId' | 'errDeviceId' | 'outputDeviceId'): unknown {
@@ -136,7 +133,7 @@ export class AncbLiveSetup extends LitElement {
   private renderDevices(): unknown {
     if (!this.devices) {
       return html`<p>The browser lists microphones only after you allow access. Nothing is recorded or sent anywhere: audio stays in this tab.</p>
-        <button id="permission" class="primary" ?disabled=${this.busy === 'permission'} @click=${() => this.fire('ancb-permission')}>Allow microphone access</button>`;
+        <button id="permission" class="primary" ?disabled=${this.busy === 'permission'} @click=${() => emit(this, 'ancb-permission')}>Allow microphone access</button>`;
     }
     const c = this.choice;
     const layouts: [MicLayout, string][] = [
@@ -176,7 +173,7 @@ export class AncbLiveSetup extends LitElement {
         <span class="pair"><input id="fir" type="number" min="16" max="4096" step="1" .value=${String(this.firTaps)}
           @change=${(e: Event) => (this.firTaps = Math.max(16, Math.min(4096, Math.round(Number((e.target as HTMLInputElement).value)) || 256)))} /><span class="small muted">taps after the delay</span></span>
       </div>
-      <p><button id="identify" class="primary" ?disabled=${!this.open || busy} @click=${() => this.fire('ancb-identify', { probeDbfs: this.probeDbfs, firTaps: this.firTaps })}>${busy ? 'Identifying…' : r ? 'Identify again' : 'Identify secondary path'}</button></p>
+      <p><button id="identify" class="primary" ?disabled=${!this.open || busy} @click=${() => emit(this, 'ancb-identify', { probeDbfs: this.probeDbfs, firTaps: this.firTaps })}>${busy ? 'Identifying…' : r ? 'Identify again' : 'Identify secondary path'}</button></p>
       ${busy ? html`<progress max="1" value="0" aria-label="probe progress"></progress>` : ''}
       ${!this.open ? html`<p class="muted small">Open the microphones first (Start).</p>` : ''}
       ${r
@@ -191,7 +188,7 @@ export class AncbLiveSetup extends LitElement {
             ${this.loaded
               ? html`<p class="small muted">This model is loaded.</p>`
               : html`<p class="warn">Not loaded: the measurement is too poor to control with safely.</p>
-                  <button id="accept-model" @click=${() => this.fire('ancb-accept-model')}>Load it anyway</button>`}`
+                  <button id="accept-model" @click=${() => emit(this, 'ancb-accept-model')}>Load it anyway</button>`}`
         : ''}`;
   }
 
@@ -200,7 +197,7 @@ export class AncbLiveSetup extends LitElement {
     const v = this.verdict;
     return html`<h3>3 · Geometry and causality</h3>
       <p class="muted small">With control off and the noise running, measure how long the noise takes from the reference mic to the error mic.</p>
-      <button id="geometry" ?disabled=${!this.open || this.busy === 'geometry'} @click=${() => this.fire('ancb-geometry')}>Measure mic geometry</button>
+      <button id="geometry" ?disabled=${!this.open || this.busy === 'geometry'} @click=${() => emit(this, 'ancb-geometry')}>Measure mic geometry</button>
       ${g && g.primaryDelayMs === null ? html`<p class="warn">${g.note}</p>` : ''}
       ${v ? html`<p class="verdict ${v.causal ? '' : 'no'}" data-causal=${String(v.causal)}>${v.text}</p>` : ''}`;
   }

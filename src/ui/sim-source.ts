@@ -9,6 +9,7 @@ import { shared, formLayout } from './theme.ts';
 import type { Scenario } from '../plant/scenario.ts';
 import { causalityVerdict } from '../analysis/live-analysis.ts';
 import { scenarioDelays, MONITOR_CEILING_DBFS } from '../web/session.ts';
+import { emit } from './emit.ts';
 
 export interface ScenarioEntry {
   id: string;
@@ -58,7 +59,7 @@ export class AncbSimSource extends LitElement {
   private monitor(gainDb: number, source: 'on' | 'off'): void {
     this.monitorGainDb = gainDb;
     this.monitorSource = source;
-    this.dispatchEvent(new CustomEvent('ancb-monitor', { detail: { gainDb, source }, bubbles: true, composed: true }));
+    emit(this, 'ancb-monitor', { gainDb, source });
   }
 
   protected override render(): unknown {
@@ -70,7 +71,7 @@ export class AncbSimSource extends LitElement {
       <h2 id="sim-h">Simulated plant</h2>
       <div class="grid">
         <label for="scenario">Scenario</label>
-        <select id="scenario" @change=${(e: Event) => this.dispatchEvent(new CustomEvent('ancb-scenario', { detail: (e.target as HTMLSelectElement).value, bubbles: true, composed: true }))}>
+        <select id="scenario" @change=${(e: Event) => emit(this, 'ancb-scenario', (e.target as HTMLSelectElement).value)}>
           ${this.scenarios.map((s) => html`<option value=${s.id} ?selected=${s.id === this.selectedId}>${s.scenario.name ?? s.id}</option>`)}
         </select>
         <label for="listen">Listening level</label>
