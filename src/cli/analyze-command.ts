@@ -3,7 +3,6 @@
  * from recordings, how much could a feedforward controller remove (coherence bound), can it act in time
  * (causality against the model's delay), and how much did it remove (band attenuation with control on).
  */
-import { parseArgs } from 'node:util';
 import { analyzeRecordings, MIN_ANALYSIS_SAMPLES, type RecordingAnalysis } from '../analysis/recording-analysis.ts';
 import type { BandFraction } from '../analysis/bands.ts';
 import type { FrequencyWeighting } from '../analysis/weighting.ts';
@@ -11,8 +10,7 @@ import { InputError, readBytes, writeOutputs } from '../io/files-node.ts';
 import { parsePathModel, PathModelError, type PathModel } from '../io/path-model-file.ts';
 import { analysisReportHtml, REPORT_FILE } from '../io/report-html-node.ts';
 import { decodeWav, type DecodedWav } from '../io/wav.ts';
-import { safeJson, toolVersion, UsageError } from './common.ts';
-import { numberFlag } from './identify-command.ts';
+import { safeJson, toolVersion, UsageError, numberFlag, parseCommandArgs } from './common.ts';
 
 export const ANALYZE_USAGE = `usage: ancbench analyze --ref ref.wav --err err.wav [--control-on err-on.wav] [--model model.json]
                         [--json] [--out DIR] [--ref-channel N] [--err-channel N] [--control-on-channel N]
@@ -78,29 +76,20 @@ export interface AnalyzeSummary {
 }
 
 function parseArgsOrThrow(argv: string[]) {
-  try {
-    return parseArgs({
-      args: argv,
-      allowPositionals: false,
-      options: {
-        ref: { type: 'string' },
-        err: { type: 'string' },
-        'control-on': { type: 'string' },
-        model: { type: 'string' },
-        json: { type: 'boolean' },
-        out: { type: 'string' },
-        'ref-channel': { type: 'string' },
-        'err-channel': { type: 'string' },
-        'control-on-channel': { type: 'string' },
-        weighting: { type: 'string' },
-        bands: { type: 'string' },
-        from: { type: 'string' },
-        help: { type: 'boolean', short: 'h' },
-      },
-    });
-  } catch (e) {
-    throw new UsageError(`${(e as Error).message}\n\n${ANALYZE_USAGE}`);
-  }
+  return parseCommandArgs(argv, {
+    ref: { type: 'string' },
+    err: { type: 'string' },
+    'control-on': { type: 'string' },
+    model: { type: 'string' },
+    json: { type: 'boolean' },
+    out: { type: 'string' },
+    'ref-channel': { type: 'string' },
+    'err-channel': { type: 'string' },
+    'control-on-channel': { type: 'string' },
+    weighting: { type: 'string' },
+    bands: { type: 'string' },
+    from: { type: 'string' },
+  } as const, ANALYZE_USAGE, false);
 }
 
 /** Decodes each file once, however many roles it plays. */

@@ -5,7 +5,6 @@
  * Exit status: 0 when the cap held, 3 when it was exceeded (by the check or the closed loop), 1 for a bad
  * file, 2 for bad flags.
  */
-import { parseArgs } from 'node:util';
 import { describeEventValues } from '../engine/events.ts';
 import { createOutputCalibration, type OutputCalibration } from '../analysis/calibration.ts';
 import { TruePeakMeter } from '../dsp/true-peak.ts';
@@ -19,8 +18,7 @@ import { levelCapConfigFromScenario, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, t
 import type { Scenario } from '../plant/scenario.ts';
 import { simulate } from '../plant/simulate.ts';
 import type { WavTable } from '../plant/sources.ts';
-import { numberFlag } from './identify-command.ts';
-import { safeJson, stamp, UsageError, type Stamp } from './common.ts';
+import { safeJson, stamp, UsageError, type Stamp, numberFlag, parseCommandArgs } from './common.ts';
 import { progressBar } from './progress.ts';
 
 export const CHECK_LIMITS_USAGE = `usage: ancbench check-limits <scenario.json> [--json] [--out DIR]
@@ -62,26 +60,17 @@ export interface CheckLimitsReport extends LimitsReportFields {
 }
 
 function parseArgsOrThrow(argv: string[]) {
-  try {
-    return parseArgs({
-      args: argv,
-      allowPositionals: true,
-      options: {
-        json: { type: 'boolean' },
-        out: { type: 'string' },
-        'start-dbfs': { type: 'string' },
-        'over-db': { type: 'string' },
-        'ramp-s': { type: 'string' },
-        'tone-hz': { type: 'string' },
-        calibration: { type: 'string' },
-        'spl-ceiling': { type: 'string' },
-        'no-closed-loop': { type: 'boolean' },
-        help: { type: 'boolean', short: 'h' },
-      },
-    });
-  } catch (e) {
-    throw new UsageError(`${(e as Error).message}\n\n${CHECK_LIMITS_USAGE}`);
-  }
+  return parseCommandArgs(argv, {
+    json: { type: 'boolean' },
+    out: { type: 'string' },
+    'start-dbfs': { type: 'string' },
+    'over-db': { type: 'string' },
+    'ramp-s': { type: 'string' },
+    'tone-hz': { type: 'string' },
+    calibration: { type: 'string' },
+    'spl-ceiling': { type: 'string' },
+    'no-closed-loop': { type: 'boolean' },
+  } as const, CHECK_LIMITS_USAGE, true);
 }
 
 /** An output-calibration file: {"points": [{hz, dbfs, measuredDbSpl}, ...], "peakCeilingDbSpl"?: number}. */

@@ -1,5 +1,6 @@
 /** Pieces every command shares: usage errors, the reproducibility stamp, JSON without NaN/Infinity. */
 import { readFileSync } from 'node:fs';
+import { parseArgs, type ParseArgsConfig } from 'node:util';
 import { fileURLToPath } from 'node:url';
 import { SCENARIO_SCHEMA_VERSION } from '../plant/scenario.ts';
 
@@ -36,4 +37,28 @@ export function stamp(command: string, seed: number, sha256: string): Stamp {
 
 export function fmtDb(v: number | null | undefined, digits = 1): string {
   return v === null || v === undefined || !Number.isFinite(v) ? 'n/a' : `${v.toFixed(digits)} dB`;
+}
+
+type OptionsConfig = NonNullable<ParseArgsConfig['options']>;
+
+/**
+ * A command's flags parsed strictly (unknown flags refused), every command's `-h/--help` added; a
+ * parse error becomes a UsageError followed by the command's usage text.
+ */
+export function parseCommandArgs<O extends OptionsConfig, P extends boolean>(argv: string[], options: O, usage: string, allowPositionals: P) {
+  try {
+    return parseArgs({ args: argv, allowPositionals, strict: true, options: { ...options, help: { type: 'boolean', short: 'h' } } as O & { help: { type: 'boolean'; short: 'h' } } });
+  } catch (e) {
+    throw new UsageError(`${(e as Error).message}\n\n${usage}`);
+  }
+}
+
+/** A numeric flag: a finite number within [min, max] (and whole if asked), or a UsageError naming the flag. */
+export function numberFlag(flag: string, text: string | undefined, min: number, max: number, whole = false): number | undefined {
+  if (text === undefined) return undefined;
+  const v = Number(text);
+  if (text.trim() === '' || !Number.isFinite(v) || v < min || v > max || (whole && !Number.isInteger(v))) {
+    throw new UsageError(`--${flag} must be ${whole ? 'a whole number' : 'a number'} from ${min} to ${max}, got "${text}"`);
+  }
+  return v;
 }

@@ -6,12 +6,11 @@
  */
 import { existsSync, statSync } from 'node:fs';
 import { basename, dirname } from 'node:path';
-import { parseArgs } from 'node:util';
 import { writeOutputs } from '../io/files-node.ts';
 import { createPathModel, serializePathModel } from '../io/path-model-file.ts';
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
 import { identifySimulated, type IdentifySimResult } from '../plant/identify-sim.ts';
-import { fmtDb, safeJson, stamp, UsageError, type Stamp } from './common.ts';
+import { fmtDb, safeJson, stamp, UsageError, type Stamp, numberFlag, parseCommandArgs } from './common.ts';
 import { progressBar } from './progress.ts';
 
 export const IDENTIFY_USAGE = `usage: ancbench identify <scenario.json> [--method noise|sweep] [--out model.json] [--json]
@@ -47,37 +46,19 @@ export type IdentifySummary = Omit<IdentifySimResult, 'taps' | 'truePath' | 'del
 };
 
 function parseArgsOrThrow(argv: string[]) {
-  try {
-    return parseArgs({
-      args: argv,
-      allowPositionals: true,
-      options: {
-        method: { type: 'string' },
-        out: { type: 'string' },
-        json: { type: 'boolean' },
-        level: { type: 'string' },
-        duration: { type: 'string' },
-        taps: { type: 'string' },
-        color: { type: 'string' },
-        'step-size': { type: 'string' },
-        'with-disturbance': { type: 'boolean' },
-        help: { type: 'boolean', short: 'h' },
-      },
-    });
-  } catch (e) {
-    throw new UsageError(`${(e as Error).message}\n\n${IDENTIFY_USAGE}`);
-  }
+  return parseCommandArgs(argv, {
+    method: { type: 'string' },
+    out: { type: 'string' },
+    json: { type: 'boolean' },
+    level: { type: 'string' },
+    duration: { type: 'string' },
+    taps: { type: 'string' },
+    color: { type: 'string' },
+    'step-size': { type: 'string' },
+    'with-disturbance': { type: 'boolean' },
+  } as const, IDENTIFY_USAGE, true);
 }
 
-/** A numeric flag: a finite number within [min, max] (and whole if asked), or a UsageError naming the flag. */
-export function numberFlag(flag: string, text: string | undefined, min: number, max: number, whole = false): number | undefined {
-  if (text === undefined) return undefined;
-  const v = Number(text);
-  if (text.trim() === '' || !Number.isFinite(v) || v < min || v > max || (whole && !Number.isInteger(v))) {
-    throw new UsageError(`--${flag} must be ${whole ? 'a whole number' : 'a number'} from ${min} to ${max}, got "${text}"`);
-  }
-  return v;
-}
 
 export async function identifyCommand(argv: string[]): Promise<number> {
   const { values, positionals } = parseArgsOrThrow(argv);

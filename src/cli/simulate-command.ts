@@ -2,7 +2,6 @@
  * `ancbench simulate <scenario.json> [--out DIR] [--json]`: run the closed loop on a scenario with
  * control off and on, and report attenuation, convergence, the Wiener bound, peak output, divergence.
  */
-import { parseArgs } from 'node:util';
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
 import { writeOutputs } from '../io/files-node.ts';
 import { encodeWavFloat32 } from '../io/wav.ts';
@@ -12,7 +11,7 @@ import { scenarioCeilingDbfs } from '../plant/scenario.ts';
 import { DEFAULT_CEILING_DBFS } from '../engine/engine.ts';
 import type { EngineEvent } from '../engine/events.ts';
 import { describeEventValues } from '../engine/events.ts';
-import { fmtDb, safeJson, stamp, UsageError, type Stamp } from './common.ts';
+import { fmtDb, safeJson, stamp, UsageError, type Stamp, parseCommandArgs } from './common.ts';
 import { progressBar } from './progress.ts';
 
 export const SIMULATE_USAGE = `usage: ancbench simulate <scenario.json> [--out DIR] [--json]
@@ -149,13 +148,5 @@ export async function simulateCommand(argv: string[]): Promise<number> {
 }
 
 function parseArgsOrThrow(argv: string[]) {
-  try {
-    return parseArgs({
-      args: argv,
-      allowPositionals: true,
-      options: { out: { type: 'string' }, json: { type: 'boolean' }, help: { type: 'boolean', short: 'h' } },
-    });
-  } catch (e) {
-    throw new UsageError(`${(e as Error).message}\n\n${SIMULATE_USAGE}`);
-  }
+  return parseCommandArgs(argv, { out: { type: 'string' }, json: { type: 'boolean' } } as const, SIMULATE_USAGE, true);
 }
