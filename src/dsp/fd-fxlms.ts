@@ -1,7 +1,7 @@
 import FFT from 'fft.js';
 import { copyPrefix } from './copy.ts';
 import type { Controller } from './controller.ts';
-import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig } from './fxlms.ts';
+import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig, validateSecondaryPathModel } from './fxlms.ts';
 import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.ts';
 
 /**
@@ -53,7 +53,7 @@ export type FdPrecision = 'float32' | 'float64';
 export type FdKernel = 'js' | 'wasm';
 
 export interface FdFxlmsOptions {
-  /** Gradient constraint. 'full': exact block LMS; 'alternating': rotating projection. Default 'alternating'. */
+  /** Gradient constraint. 'full' (default): exact block LMS; 'alternating': rotating projection, faster, slower to converge. */
   constraint?: GradientConstraint;
   /** Spectral loops in TypeScript or in the WebAssembly SIMD kernel. Default 'js'. */
   kernel?: FdKernel;
@@ -150,17 +150,14 @@ export class FdFxlmsController implements Controller {
 
   constructor(config: FxlmsConfig, secondaryPathModel: Float32Array | Float64Array, maxBlockSize: number, options: FdFxlmsOptions = {}) {
     validateFxlmsConfig(config);
-    if (secondaryPathModel.length < 1) throw new RangeError('secondary-path model needs at least one tap');
-    for (let i = 0; i < secondaryPathModel.length; i++) {
-      if (!Number.isFinite(secondaryPathModel[i]!)) throw new RangeError(`secondary-path model tap ${i} is not finite`);
-    }
+    validateSecondaryPathModel(secondaryPathModel);
     if (!Number.isInteger(maxBlockSize) || maxBlockSize < 2 || maxBlockSize > FD_MAX_PARTITION || (maxBlockSize & (maxBlockSize - 1)) !== 0) {
       throw new RangeError(`the frequency-domain FxLMS needs a block size that is a power of two from 2 to ${FD_MAX_PARTITION}, got ${maxBlockSize}`);
     }
     if (config.update === 'sample') {
       throw new RangeError('controller.update "sample" asks for per-sample weight updates; the frequency-domain FxLMS updates once per block (use "block" or another implementation)');
     }
-    const constraint = options.constraint ?? 'alternating';
+    const constraint = options.constraint ?? 'full';
     if (constraint !== 'full' && constraint !== 'alternating') throw new RangeError(`constraint must be "full" or "alternating", got ${String(constraint)}`);
     const kernel = options.kernel ?? 'js';
     if (kernel !== 'js' && kernel !== 'wasm') throw new RangeError(`kernel must be "js" or "wasm", got ${String(kernel)}`);

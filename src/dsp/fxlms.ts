@@ -71,10 +71,7 @@ export class FxlmsController implements Controller {
 
   constructor(config: FxlmsConfig, secondaryPathModel: Float32Array, maxBlockSize: number) {
     validateFxlmsConfig(config);
-    if (secondaryPathModel.length < 1) throw new RangeError('secondary-path model needs at least one tap');
-    for (let i = 0; i < secondaryPathModel.length; i++) {
-      if (!Number.isFinite(secondaryPathModel[i]!)) throw new RangeError(`secondary-path model tap ${i} is not finite`);
-    }
+    validateSecondaryPathModel(secondaryPathModel);
     if (!Number.isInteger(maxBlockSize) || maxBlockSize < 1) throw new RangeError(`maxBlockSize must be an integer ≥ 1, got ${maxBlockSize}`);
     this.kind = config.algorithm;
     this.normalized = config.algorithm === 'fxnlms';
@@ -251,6 +248,14 @@ export class FxlmsController implements Controller {
     this.fEnergy = energy;
     this.sinceRecompute = since;
     this.filled = filled;
+  }
+}
+
+/** Refuse an empty secondary-path model or one with a non-finite tap, naming the tap. */
+export function validateSecondaryPathModel(model: ArrayLike<number>): void {
+  if (model.length < 1) throw new RangeError('secondary-path model needs at least one tap');
+  for (let i = 0; i < model.length; i++) {
+    if (!Number.isFinite(model[i]!)) throw new RangeError(`secondary-path model tap ${i} is not finite`);
   }
 }
 

@@ -1,6 +1,6 @@
 import type { Controller } from './controller.ts';
 import { copyPrefix, replacePadded } from './copy.ts';
-import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig } from './fxlms.ts';
+import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig, validateSecondaryPathModel } from './fxlms.ts';
 import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.ts';
 
 /**
@@ -39,10 +39,7 @@ export class WasmFxlmsController implements Controller {
 
   constructor(config: FxlmsConfig, secondaryPathModel: Float32Array | Float64Array, maxBlockSize: number, module?: WebAssembly.Module) {
     validateFxlmsConfig(config);
-    if (secondaryPathModel.length < 1) throw new RangeError('secondary-path model needs at least one tap');
-    for (let i = 0; i < secondaryPathModel.length; i++) {
-      if (!Number.isFinite(secondaryPathModel[i]!)) throw new RangeError(`secondary-path model tap ${i} is not finite`);
-    }
+    validateSecondaryPathModel(secondaryPathModel);
     if (!Number.isInteger(maxBlockSize) || maxBlockSize < 1 || maxBlockSize > 1 << 16) throw new RangeError(`maxBlockSize must be an integer from 1 to 65536, got ${maxBlockSize}`);
     this.kind = config.algorithm;
     this.taps = config.taps;

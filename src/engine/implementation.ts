@@ -120,7 +120,7 @@ export function createFxlmsController(
     case 'fd': {
       const simd = options.wasmSimd ?? wasmSimdSupported();
       return new FdFxlmsController(config, secondaryPathModel, maxBlockSize, {
-        constraint: options.constraint ?? 'full',
+        ...(options.constraint ? { constraint: options.constraint } : {}),
         kernel: simd ? 'wasm' : 'js',
       });
     }
