@@ -1,6 +1,6 @@
-import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
-import type { Browser, Page } from 'playwright';
-import { launch, panelValue, watchPage } from './helpers.ts';
+import { beforeAll, describe, expect, it } from 'vitest';
+import type { Page } from 'playwright';
+import { panelValue, useDemoPage, watchPage } from './helpers.ts';
 
 /**
  * Switching between broadband FxNLMS and the tone follower on the running simulated plant: the engine
@@ -44,18 +44,10 @@ function audioTime(page: Page): Promise<number> {
 }
 
 describe('controller switch on the simulated plant', () => {
-  let browser: Browser;
+  const demo = useDemoPage();
   let page: Page;
-
-  beforeAll(async () => {
-    browser = await launch();
-    page = await browser.newPage({ viewport: { width: 1500, height: 1000 } });
-    await page.goto(`${inject('baseUrl')}/demo/index.html`);
-    await page.locator('#scenario').waitFor();
-  });
-
-  afterAll(async () => {
-    await browser?.close();
+  beforeAll(() => {
+    page = demo.page;
   });
 
   it('should crossfade between FxNLMS and the tone follower without restarting the plant or stepping the output', async () => {

@@ -1,5 +1,6 @@
 /** Shared pieces of the browser tests: launching Debian's Chromium headless with the flags that work here. */
 import { writeFileSync } from 'node:fs';
+import { afterAll, beforeAll, inject } from 'vitest';
 import { chromium, type Browser, type LaunchOptions, type Page } from 'playwright';
 import wavefile from 'wavefile';
 
@@ -113,4 +114,23 @@ export async function tabTo(page: Page, name: string, limit = 80): Promise<boole
     await page.keyboard.press('Tab');
   }
   return (await focusedName(page)) === name;
+}
+
+/**
+ * The demo page from the build under test, opened once for a describe block: registers beforeAll and
+ * afterAll, and returns a holder whose `page` is ready inside the tests.
+ */
+export function useDemoPage(viewport = { width: 1500, height: 1000 }): { page: Page } {
+  const holder = { page: undefined as unknown as Page };
+  let browser: Browser | undefined;
+  beforeAll(async () => {
+    browser = await launch();
+    holder.page = await browser.newPage({ viewport });
+    await holder.page.goto(`${inject('baseUrl')}/demo/index.html`);
+    await holder.page.locator('#scenario').waitFor();
+  });
+  afterAll(async () => {
+    await browser?.close();
+  });
+  return holder;
 }

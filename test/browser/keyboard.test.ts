@@ -1,6 +1,6 @@
-import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
-import type { Browser, Page } from 'playwright';
-import { focusedName, launch, panelValue, tabTo } from './helpers.ts';
+import { beforeAll, describe, expect, inject, it } from 'vitest';
+import type { Page } from 'playwright';
+import { focusedName, panelValue, tabTo, useDemoPage } from './helpers.ts';
 
 function settings(page: Page): Promise<{ algorithm: string; stepSize: number; ceilingDbfs: number; adaptation: boolean }> {
   return page.evaluate(() => {
@@ -10,18 +10,10 @@ function settings(page: Page): Promise<{ algorithm: string; stepSize: number; ce
 }
 
 describe('panel from the keyboard', () => {
-  let browser: Browser;
+  const demo = useDemoPage();
   let page: Page;
-
-  beforeAll(async () => {
-    browser = await launch();
-    page = await browser.newPage({ viewport: { width: 1500, height: 1000 } });
-    await page.goto(`${inject('baseUrl')}/demo/index.html`);
-    await page.locator('#scenario').waitFor();
-  });
-
-  afterAll(async () => {
-    await browser?.close();
+  beforeAll(() => {
+    page = demo.page;
   });
 
   it('should reach every control with Tab', async () => {
@@ -86,7 +78,7 @@ describe('panel from the keyboard', () => {
   it('should refuse a choice the platform cannot run, say why, and keep the engine running', async () => {
     // a platform without WebAssembly: the same build, its Content-Security-Policy without
     // 'wasm-unsafe-eval', so compiling the SIMD kernels is refused (src/dsp/wasm-module.ts)
-    const noWasm = await browser.newPage({ viewport: { width: 1500, height: 1000 } });
+    const noWasm = await page.context().browser()!.newPage({ viewport: { width: 1500, height: 1000 } });
     await noWasm.route('**/demo/index.html', async (route) => {
       const response = await route.fetch();
       const body = (await response.text()).replace(" 'wasm-unsafe-eval'", '');
