@@ -5,7 +5,7 @@ import { expectClose } from '../helpers/tolerance.ts';
 
 // The ceiling rule of issue 5: set in dBFS and, with an output calibration, in dB SPL at the listening
 // position; the stricter applies, the SPL one through the highest sensitivity measured (peak-based: a sine's
-// peak level is its RMS level + 20·log10(√2) = 3.01 dB, the definition of its crest factor). The
+// peak level is its RMS level + 20·log10(√2) = 3.01 dB, the definition of its crest factor; common practice). The
 // calibration arithmetic itself is tested in calibration.test.ts; here: which rule wins, and that the output
 // stage, driven past the cap, holds the SPL ceiling at every calibrated frequency.
 

@@ -11,7 +11,7 @@ function randomSignal(seed: number, count: number): Float64Array {
 
 describe('fft', () => {
   it('should match the DFT definition X_k = Σ x_n·e^(−j2πkn/N), zero-padding short input', () => {
-    // Discrete Fourier transform by its definition (Oppenheim & Schafer, Discrete-Time Signal Processing).
+    // Discrete Fourier transform by its definition (Oppenheim & Schafer, *Discrete-Time Signal Processing*, 1989; common practice).
     const N = 64;
     const x = randomSignal(1, 50);
     const X = realSpectrum(x, N);

@@ -4,7 +4,8 @@ import { solveToeplitz } from '../../src/analysis/toeplitz.ts';
 import { Random } from '../../src/dsp/random.ts';
 
 function directSolve(A: number[][], b: number[]): number[] {
-  // Gaussian elimination with partial pivoting: the plain textbook method (Golub & Van Loan, Alg. 3.4.1)
+  // Gaussian elimination with partial pivoting: the plain textbook method (Golub & Van Loan, *Matrix
+  // Computations*, 3rd ed., 1996, Alg. 3.4.1; from memory)
   const n = b.length;
   const M = A.map((row, i) => [...row, b[i]!]);
   for (let c = 0; c < n; c++) {
@@ -44,6 +45,8 @@ describe('solveToeplitz (Levinson recursion)', () => {
   });
 });
 
+// The Wiener solution of a transversal filter, R·w = −p and E_min = E[d²] − pᵀR⁻¹p (Widrow & Stearns,
+// *Adaptive Signal Processing*, 1985, ch. 2; from memory); Levinson, J. Math. Phys. 25, 1947.
 describe('wienerBound', () => {
   it('should find the delayed, scaled reference for a pure-delay plant (white reference)', () => {
     // d(n) = −g·r(n − D): the optimum is w = g·δ(k − D), reaching the noise floor.
