@@ -90,11 +90,11 @@ export function attenuationCsv(r: SimulationResult): string {
 export function readableSummary(s: SimulateSummary): string {
   const lines = [
     `scenario      ${s.scenario}${s.name ? `  (${s.name})` : ''}`,
-    `controller    ${s.algorithm}, ${s.sampleRate} Hz, ${s.durationS.toFixed(2)} s; ${s.implementation}`,
+    `controller    ${s.algorithm}, ${s.sampleRate} Hz, ${s.durationS.toFixed(2)} s${s.implementation !== s.algorithm ? `; ${s.implementation}` : ''}`,
     `attenuation   ${fmtDb(s.attenuationDb)}  (error mic, last 25 % of the run, unweighted)`,
     `error level   ${s.errorOffDbfs === null ? 'n/a' : s.errorOffDbfs.toFixed(1)} dBFS off → ${s.errorOnDbfs === null ? 'n/a' : s.errorOnDbfs.toFixed(1)} dBFS on`,
     `convergence   ${s.convergenceS === null ? 'not reached' : `${s.convergenceS.toFixed(2)} s`}`,
-    `Wiener bound  ${fmtDb(s.wienerBoundDb)}${s.wienerBoundIsBound ? '' : '  (not a bound: the scenario is not stationary)'}`,
+    `Wiener bound  ${fmtDb(s.wienerBoundDb)}${s.wienerBoundDb === null ? (s.algorithm === 'tonal' ? '  (narrowband controller: see the per-tone figures)' : '') : s.wienerBoundIsBound ? '' : '  (not a bound: the scenario is not stationary)'}`,
     `peak output   ${s.peakOutputDbfs === null ? 'n/a' : `${s.peakOutputDbfs.toFixed(1)} dBFS`}  (ceiling ${s.outputCeilingDbfs} dBFS)`,
     `diverged      ${s.diverged ? `YES: ${s.divergenceReasons.join('; ')}` : 'no'}`,
   ];
