@@ -1,4 +1,5 @@
 import type { Controller } from '../dsp/controller.ts';
+import { checkControllerSettings } from './settings.ts';
 import type { FxlmsConfig } from '../dsp/fxlms.ts';
 import { buildFxlmsController, type FxlmsImplementationSettings } from './implementation.ts';
 import { TonalController, type TonalControllerConfig } from '../dsp/tonal-controller.ts';
@@ -16,6 +17,8 @@ export function createController(
   maxBlockSize: number,
   sampleRate: number,
 ): Controller {
+  // the same table the scenario schema and the worklet messages use (src/engine/settings.ts)
+  checkControllerSettings(config);
   switch (config.algorithm) {
     case 'fxlms':
     case 'fxnlms':

@@ -12,6 +12,7 @@
  *  - posted: `{ type: 'meters', frame }` and `{ type: 'event', record }` messages on the node's port,
  *    each a preallocated object reused for every post (structured cloning copies it).
  */
+import { checkControllerSettings } from './settings.ts';
 import type { ControllerConfig } from './controller-factory.ts';
 import type { EngineMode } from './engine.ts';
 import {
@@ -609,11 +610,11 @@ export function parseControlMessage(data: unknown, sampleRate: number): ControlM
       if (!(m.secondaryPathModel instanceof Float32Array) || m.secondaryPathModel.length < 1) {
         throw new RangeError('secondaryPathModel must be a non-empty Float32Array');
       }
-      if (typeof m.controller !== 'object' || m.controller === null) throw new RangeError('controller must be an object');
+      checkControllerSettings(m.controller, 'controller.');
       const startMode = m.startMode === undefined ? undefined : (m.startMode as EngineMode);
       if (startMode !== undefined && !MODES.includes(startMode)) throw new RangeError(`startMode must be one of ${MODES.join(', ')}, got ${String(startMode)}`);
       const sb = m.standbyController;
-      if (sb !== undefined && (typeof sb !== 'object' || sb === null)) throw new RangeError(`standbyController must be an object when given, got ${String(sb)}`);
+      if (sb !== undefined) checkControllerSettings(sb, 'standbyController.');
       return {
         type: 'configure',
         controller: m.controller as ControllerConfig,

@@ -8,6 +8,10 @@
 import { z } from 'zod';
 import { buildPathResponse, DEFAULT_HALF_WIDTH, type SparseResponse } from './fractional-delay.ts';
 import { roomPathsSchema, roomPathsToExplicit } from './room-paths.ts';
+import {
+  ALGORITHMS, FXLMS_SETTINGS, LIMITER_SETTINGS, SIMULATION_ONLY_FIELDS, TONAL_SETTINGS,
+  describeRange, fitsSetting, type SettingsObject, type SettingsTable,
+} from '../engine/settings.ts';
 
 export const SCENARIO_SCHEMA_VERSION = 1;
 
@@ -68,48 +72,51 @@ const sensorNoise = z.union([
   z.strictObject({ reference: num(0, 10), error: num(0, 10) }),
 ], { error: 'must be a number (RMS for both mics) or {reference, error}' });
 
-const modelFields = {
-  modelTaps: int(1, 1 << 20).optional(),
-  modelPhaseErrorDeg: num(-180, 180).optional(),
-  modelGainErrorDb: num(-60, 60).optional(),
-  modelFile: z.string().min(1).optional(),
-};
+/**
+ * A zod object schema derived from a settings table (src/engine/settings.ts): the same ranges,
+ * defaults and messages as the engine's and the worklet's checks. Strict: unknown keys are refused.
+ */
+export function schemaFromTable(table: SettingsTable): z.ZodObject {
+  const shape: Record<string, z.ZodType> = {};
+  for (const [field, spec] of Object.entries(table)) {
+    const allowed = `must be ${describeRange(spec)}`;
+    let t: z.ZodType;
+    switch (spec.type) {
+      case 'number':
+        t = z.number({ error: allowed }).refine((v) => fitsSetting(spec, v), allowed);
+        break;
+      case 'enum':
+        t = spec.values.length === 1 ? z.literal(spec.values[0]!, { error: allowed }) : z.enum(spec.values as [string, ...string[]], { error: allowed });
+        break;
+      case 'boolean':
+        t = z.boolean({ error: allowed });
+        break;
+      case 'string':
+        t = z.string({ error: allowed }).min(1, allowed);
+        break;
+    }
+    shape[field] = spec.required ? t : t.optional();
+  }
+  return z.strictObject(shape);
+}
 
-const fxlmsController = z.strictObject({
-  algorithm: z.enum(['fxlms', 'fxnlms']),
-  taps: int(1, 65536),
-  stepSize: z.number({ error: 'must be a number > 0' }).positive('must be > 0').refine(Number.isFinite, 'must be finite'),
-  leakage: num(0, 1e6).optional(),
-  regularization: z.number().positive('must be > 0').optional(),
-  update: z.enum(['sample', 'block'], { error: 'must be "sample" or "block"' }).optional(),
-  implementation: z.enum(['auto', 'js', 'wasm', 'fd'], { error: 'must be "auto", "js", "wasm" or "fd"' }).optional(),
-  fdConstraint: z.enum(['alternating', 'full'], { error: 'must be "alternating" or "full"' }).optional(),
-  ...modelFields,
-});
+/** The scenario's controller object: a settings table plus the simulator-only model-imperfection fields. */
+const controllerBranch = (table: SettingsTable) => schemaFromTable({ ...table, ...SIMULATION_ONLY_FIELDS });
 
 /**
- * Narrowband FxLMS on synthesized references at the tracked fundamental and its harmonics.
- * `stepSize` is normalised per harmonic by the power of its filtered synthesized reference:
- * μ_k = stepSize / (δ + |Ŝ(kω₀)|²), so the error at each harmonic decays with a time constant of
- * about 2/stepSize samples whatever the path gain (0 < stepSize < 2; see src/dsp/tonal-controller.ts).
+ * Broadband FxLMS / FxNLMS, and the narrowband tone follower (its `stepSize` is normalised per
+ * harmonic by the power of its filtered synthesized reference: μ_k = stepSize / (δ + |Ŝ(kω₀)|²), so the
+ * error at each harmonic decays with a time constant of about 2/stepSize samples whatever the path
+ * gain; see src/dsp/tonal-controller.ts). Fields, ranges and defaults: src/engine/settings.ts.
  */
-const tonalController = z.strictObject({
-  algorithm: z.literal('tonal'),
-  harmonics: int(1, 8),
-  stepSize: z.number({ error: 'must be a number from 0 to 2 (exclusive)' }).gt(0, 'must be > 0').lt(2, 'must be < 2'),
-  hz: num(1, 96000, 'frequency in Hz').optional(),
-  frequencySource: z.enum(['reference', 'error', 'fixed', 'external'], { error: 'must be "reference", "error", "fixed" or "external"' }).optional(),
-  minHz: num(1, 96000).optional(),
-  maxHz: num(1, 96000).optional(),
-  harmonicsCheck: z.boolean().optional(),
-  leakage: num(0, 1e6).optional(),
-  regularization: z.number().min(0, 'must be ≥ 0').optional(),
-  ...modelFields,
+export const controllerSchema = z.discriminatedUnion('algorithm', [controllerBranch(FXLMS_SETTINGS), controllerBranch(TONAL_SETTINGS)], {
+  error: (iss) => (iss.code === 'invalid_union' ? `algorithm must be one of ${ALGORITHMS.map((a) => `"${a}"`).join(', ')}` : undefined),
 });
 
-export const controllerSchema = z.discriminatedUnion('algorithm', [fxlmsController, tonalController], {
-  error: (iss) => (iss.code === 'invalid_union' ? 'algorithm must be one of "fxlms", "fxnlms", "tonal"' : undefined),
-});
+/** A scenario's controller object, typed from the tables. */
+export type ControllerSpec =
+  | SettingsObject<typeof FXLMS_SETTINGS & typeof SIMULATION_ONLY_FIELDS>
+  | SettingsObject<typeof TONAL_SETTINGS & typeof SIMULATION_ONLY_FIELDS>;
 
 export const scenarioSchema = z.strictObject({
   schemaVersion: z.literal(SCENARIO_SCHEMA_VERSION, { error: `must be ${SCENARIO_SCHEMA_VERSION} (this version of ancbench reads scenario schema ${SCENARIO_SCHEMA_VERSION})` }),
@@ -126,13 +133,7 @@ export const scenarioSchema = z.strictObject({
   sensorNoiseRms: sensorNoise.optional(),
   controller: controllerSchema,
   outputCeilingDbfs: num(-120, 0, 'level in dBFS (≤ 0)').optional(),
-  limiter: z.strictObject({
-    ceilingDbfs: num(-120, 0, 'level in dBFS (≤ 0)').optional(),
-    lookaheadMs: num(0, 50, 'time in ms').optional(),
-    truePeak: z.boolean({ error: 'must be true or false' }).optional(),
-    attackMs: num(0, 100, 'time in ms').optional(),
-    releaseMs: num(1, 5000, 'time in ms').optional(),
-  }).optional(),
+  limiter: schemaFromTable(LIMITER_SETTINGS).optional(),
   highPassHz: num(0, 1000, 'frequency in Hz (0 = off)').optional(),
   guard: z.union([z.literal(false), z.record(z.string(), z.unknown())], { error: 'must be false (no guard) or an object of guard settings' }).optional(),
   controlStartS: num(0, 86400).optional(),
@@ -150,10 +151,13 @@ export const scenarioSchema = z.strictObject({
 export const roomScenarioSchema = scenarioSchema.extend({ paths: roomPathsSchema });
 
 /** A validated scenario; room paths are already turned into explicit paths. */
-export type Scenario = z.infer<typeof scenarioSchema> & { room?: z.infer<typeof roomPathsSchema> };
+export type Scenario = Omit<z.infer<typeof scenarioSchema>, 'controller' | 'limiter'> & {
+  controller: ControllerSpec;
+  limiter?: SettingsObject<typeof LIMITER_SETTINGS>;
+  room?: z.infer<typeof roomPathsSchema>;
+};
 export type SourceSpec = z.infer<typeof sourceSchema>;
 export type PathSpec = z.infer<typeof pathSchema>;
-export type ControllerSpec = z.infer<typeof controllerSchema>;
 
 /** A scenario that failed validation: one line per problem, each naming the field path. */
 export class ScenarioError extends Error {
@@ -199,12 +203,12 @@ export function parseScenario(value: unknown): Scenario {
     // image-source room: compute the four paths now, so everything downstream sees explicit paths
     const room = data.paths;
     try {
-      s = { ...data, paths: roomPathsToExplicit(room, data.sampleRate), room };
+      s = { ...data, paths: roomPathsToExplicit(room, data.sampleRate), room } as unknown as Scenario;
     } catch (e) {
       throw new ScenarioError([`paths.room: ${(e as Error).message}`]);
     }
   } else {
-    s = data as Scenario;
+    s = data as unknown as Scenario;
   }
   const problems: string[] = [];
   const nyq = s.sampleRate / 2;

@@ -7,6 +7,7 @@
  * One pass computes both runs of the same seed: control off (error = disturbance + sensor noise) and
  * control on. Microphones clip at ±1 (full scale), as a converter would.
  */
+import { engineSettings } from '../engine/settings.ts';
 import { Engine, DEFAULT_CEILING_DBFS, type EngineConfig, type EngineMode } from '../engine/engine.ts';
 import { HighPass } from '../dsp/highpass.ts';
 import { OutputLimiter } from '../dsp/limiter.ts';
@@ -108,35 +109,15 @@ function dense(r: { offset: number; taps: Float64Array }): { offset: number; tap
   return r.taps.length ? r : { offset: 0, taps: new Float64Array(1) };
 }
 
-/** The controller part of a scenario as the engine wants it. */
+/**
+ * The controller part of a scenario as the engine wants it: the same object minus the simulator-only
+ * fields (src/engine/settings.ts). The tone follower's frequency source defaults to the reference
+ * mic, or to "fixed" when only `hz` is given.
+ */
 export function engineControllerConfig(sc: Scenario): ControllerConfig {
-  const c = sc.controller;
-  if (c.algorithm === 'tonal') {
-    // frequency source: the reference mic by default; 'fixed' when only hz is given
-    const frequencySource = c.frequencySource ?? (c.hz !== undefined ? 'fixed' : 'reference');
-    return {
-      algorithm: 'tonal',
-      harmonics: c.harmonics,
-      stepSize: c.stepSize,
-      frequencySource,
-      ...(c.hz !== undefined ? { hz: c.hz } : {}),
-      ...(c.minHz !== undefined ? { minHz: c.minHz } : {}),
-      ...(c.maxHz !== undefined ? { maxHz: c.maxHz } : {}),
-      ...(c.harmonicsCheck !== undefined ? { harmonicsCheck: c.harmonicsCheck } : {}),
-      ...(c.leakage !== undefined ? { leakage: c.leakage } : {}),
-      ...(c.regularization !== undefined ? { regularization: c.regularization } : {}),
-    };
-  }
-  return {
-    algorithm: c.algorithm,
-    taps: c.taps,
-    stepSize: c.stepSize,
-    ...(c.leakage !== undefined ? { leakage: c.leakage } : {}),
-    ...(c.regularization !== undefined ? { regularization: c.regularization } : {}),
-    ...(c.update !== undefined ? { update: c.update } : {}),
-    ...(c.implementation !== undefined ? { implementation: c.implementation } : {}),
-    ...(c.fdConstraint !== undefined ? { fdConstraint: c.fdConstraint } : {}),
-  };
+  const c = engineSettings(sc.controller) as ControllerConfig;
+  if (c.algorithm === 'tonal' && c.frequencySource === undefined) return { ...c, frequencySource: c.hz !== undefined ? 'fixed' : 'reference' };
+  return c;
 }
 
 /** The true secondary path as a dense impulse response (bulk delay included). */

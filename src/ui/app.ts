@@ -35,9 +35,8 @@ import type { AncbTones } from './tones.ts';
 import './tones.ts';
 import type { ScenarioEntry } from './sim-source.ts';
 import type { AncbLiveSetup } from './live-setup.ts';
-import { LIVE_MAX_QUANTUM, Session, SWITCH_CROSSFADE_MS, checkController, checkedSimScenario, defaultProbe, type ControlSettings, type ModelInfo } from '../web/session.ts';
+import { LIVE_MAX_QUANTUM, Session, SWITCH_CROSSFADE_MS, checkController, checkedSimScenario, defaultProbe, panelSettingsFromScenario, type ControlSettings, type ModelInfo } from '../web/session.ts';
 import { analysis } from '../web/analysis-client.ts';
-import { engineControllerConfig } from '../plant/simulate.ts';
 import { listDevices, loadChoice, reconcileChoice, requestMicrophonePermission, saveChoice, type DeviceChoice, type DeviceLists } from '../web/devices.ts';
 import { causalityVerdict, type CausalityVerdict, type GeometryResult, type IdentificationResult } from '../analysis/live-analysis.ts';
 import type { PanelEvent } from '../engine/messages.ts';
@@ -409,13 +408,8 @@ export class AncbApp extends LitElement {
   }
 
   private settingsFromScenario(e: ScenarioEntry): ControlSettings {
-    const controller = engineControllerConfig(e.scenario);
-    return {
-      controller,
-      ceilingDbfs: e.scenario.outputCeilingDbfs ?? DEFAULT_SETTINGS.ceilingDbfs,
-      adaptation: true,
-      standby: defaultStandby(controller),
-    };
+    const s = panelSettingsFromScenario(e.scenario);
+    return { ...s, standby: defaultStandby(s.controller) };
   }
 
   // ---------------------------------------------------------------- calibration and caps

@@ -25,6 +25,7 @@ import type { ControllerConfig, TonalSettings } from '../engine/controller-facto
 import type { FxlmsConfig } from '../dsp/fxlms.ts';
 import type { FxlmsImplementationSettings } from '../engine/implementation.ts';
 import { emit } from './emit.ts';
+import { FXLMS_SETTINGS, LIMITER_SETTINGS, TONAL_SETTINGS } from '../engine/settings.ts';
 
 /** A broadband (FxLMS / FxNLMS) configuration with its implementation fields. */
 type BroadbandConfig = FxlmsConfig & FxlmsImplementationSettings;
@@ -46,7 +47,9 @@ export function implementationChoice(c: BroadbandConfig): ImplementationChoice {
   return c.implementation ?? 'auto';
 }
 
-export const HARMONICS_RANGE: [number, number] = [1, 8];
+/** Ranges of the number fields: from the settings tables (src/engine/settings.ts), as the scenario schema and the engine check them. */
+const range = (spec: { min: number; max: number }): [number, number] => [spec.min, spec.max];
+export const HARMONICS_RANGE = range(TONAL_SETTINGS.harmonics);
 export const TONE_HZ_RANGE: [number, number] = [20, 2000];
 export const DEFAULT_FX: FxlmsConfig = { algorithm: 'fxnlms', taps: 64, stepSize: 0.002 };
 export const DEFAULT_TONAL: TonalSettings = { algorithm: 'tonal', harmonics: 1, stepSize: 0.005, frequencySource: 'reference' };
@@ -56,11 +59,16 @@ export function defaultStandby(c: ControllerConfig): ControllerConfig {
   return c.algorithm === 'tonal' ? { ...DEFAULT_FX } : { ...DEFAULT_TONAL };
 }
 
-export const TAPS_RANGE: [number, number] = [1, 4096];
+export const TAPS_RANGE = range(FXLMS_SETTINGS.taps);
+export const LEAK_RANGE = range(FXLMS_SETTINGS.leakage);
+/**
+ * Spans of the logarithmic step-size slider and of the cap slider: the part of each setting's range a
+ * demonstration moves through (the tables allow more; a scenario file may use the rest). Both lie
+ * inside the tables' ranges: μ > 0 (tone follower μ < 2), cap −120 … 0 dBFS.
+ */
 export const STEP_RANGE: [number, number] = [1e-6, 2];
 export const TONAL_STEP_RANGE: [number, number] = [1e-6, 1.99];
-export const LEAK_RANGE: [number, number] = [0, 100];
-export const CAP_RANGE: [number, number] = [-40, 0];
+export const CAP_RANGE: [number, number] = [-40, LIMITER_SETTINGS.ceilingDbfs.max];
 
 export class AncbControls extends LitElement {
   static override properties = {

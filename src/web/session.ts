@@ -9,8 +9,10 @@
  * after the worklet ramps the whole output (the simulated plant's listening signal too).
  */
 import './zod-jitless.ts';
+import { scenarioForPanel, type ControlSettings } from './panel-settings.ts';
+export { scenarioController, scenarioForPanel, panelSettingsFromScenario, type ControlSettings } from './panel-settings.ts';
 import type { IAudioContext, IAudioWorkletNode, GainNode } from 'standardized-audio-context';
-import { parseScenario, type Scenario } from '../plant/scenario.ts';
+import type { Scenario } from '../plant/scenario.ts';
 import { engineControllerConfig, trueSecondaryPath } from '../plant/simulate.ts';
 import { createController, type ControllerConfig } from '../engine/controller-factory.ts';
 import { DEFAULT_CROSSFADE_MS } from '../engine/engine.ts';
@@ -35,17 +37,6 @@ export const MONITOR_CEILING_DBFS = -20;
 /** Default probe: a 1.5 s sweep 40 Hz … 0.45·fs at −30 dBFS peak, 0.5 s tail. */
 export function defaultProbe(sampleRate: number): ProbeSpec {
   return { startHz: 40, endHz: Math.min(16000, 0.45 * sampleRate), durationS: 1.5, amplitude: 0.03, tailS: 0.5 };
-}
-
-export interface ControlSettings {
-  controller: ControllerConfig;
-  ceilingDbfs: number;
-  adaptation: boolean;
-  /**
-   * The other controller family's settings (tone follower beside broadband FxLMS, or the reverse):
-   * the engine keeps it on standby, so switching between the two crossfades instead of restarting.
-   */
-  standby?: ControllerConfig;
 }
 
 /** Crossfade between the two controllers when the user switches algorithm, ms. */
@@ -80,53 +71,6 @@ export interface SessionHandlers {
   warning(text: string): void;
   /** What runs the controller in charge, reported by the audio thread on every (re)configuration and switch. */
   implementation(text: string): void;
-}
-
-/** The scenario's controller with the panel's settings in place (its model-imperfection fields kept). */
-export function scenarioController(sc: Scenario, c: ControllerConfig): Scenario['controller'] {
-  const o = sc.controller;
-  // modelFile is left out: the page cannot read files; the model comes from the true path
-  const keep = {
-    ...(o.modelTaps !== undefined ? { modelTaps: o.modelTaps } : {}),
-    ...(o.modelPhaseErrorDeg !== undefined ? { modelPhaseErrorDeg: o.modelPhaseErrorDeg } : {}),
-    ...(o.modelGainErrorDb !== undefined ? { modelGainErrorDb: o.modelGainErrorDb } : {}),
-  };
-  const leak = c.leakage !== undefined ? { leakage: c.leakage } : {};
-  if (c.algorithm === 'tonal') {
-    const source = c.frequencySource === 'external' ? 'reference' : c.frequencySource;
-    return {
-      algorithm: 'tonal',
-      harmonics: c.harmonics,
-      stepSize: c.stepSize,
-      frequencySource: source,
-      ...(c.hz !== undefined ? { hz: c.hz } : {}),
-      ...(c.minHz !== undefined ? { minHz: c.minHz } : {}),
-      ...(c.maxHz !== undefined ? { maxHz: c.maxHz } : {}),
-      ...leak,
-      ...keep,
-    };
-  }
-  return {
-    algorithm: c.algorithm,
-    taps: c.taps,
-    stepSize: c.stepSize,
-    ...leak,
-    ...(c.regularization !== undefined ? { regularization: c.regularization } : {}),
-    ...(c.update !== undefined ? { update: c.update } : {}),
-    ...(c.implementation !== undefined ? { implementation: c.implementation } : {}),
-    ...(c.fdConstraint !== undefined ? { fdConstraint: c.fdConstraint } : {}),
-    ...keep,
-  };
-}
-
-/**
- * The scenario as the panel runs it: its own rate and block size (the worklet splits each render
- * quantum into steps of at most one block; when the block divides the quantum, as 32 … 128 do 128,
- * the run matches the command-line simulator's block for block), with the panel's controller
- * settings and output cap.
- */
-export function scenarioForPanel(sc: Scenario, settings: ControlSettings): Scenario {
-  return parseScenario({ ...sc, outputCeilingDbfs: settings.ceilingDbfs, controller: scenarioController(sc, settings.controller) });
 }
 
 /**

@@ -125,7 +125,7 @@ describe('parseControlMessage', () => {
         parseControlMessage({ type: 'level-check', request: { ceilingDbfs: -20, signal: {}, micCalibration: { hz: 1000, sensitivityDbSpl: 'x', validFromHz: 1000, validToHz: 1000 } } }, 48000),
       ).toThrow('request.micCalibration.sensitivityDbSpl must be a number from -100 to 300, got x');
       expect(() => parseControlMessage({ type: 'configure', controller: { algorithm: 'fxnlms', taps: 8, stepSize: 0.1 }, secondaryPathModel: Float32Array.of(1), standbyController: 5 }, 48000)).toThrow(
-        'standbyController must be an object when given, got 5',
+        'standbyController: must be an object of controller settings, got 5',
       );
     });
   });
