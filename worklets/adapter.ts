@@ -19,7 +19,7 @@ import {
   type TelemetryOptions,
   type AudioChunkMessage,
   type PortLike,
-} from '../src/engine/messages.ts';
+} from '../src/protocol/messages.ts';
 import type { Engine } from '../src/engine/engine.ts';
 
 /** Smallest interval between two events of the same cause while the condition persists, s. */

@@ -7,7 +7,7 @@ import type { Engine } from '../src/engine/engine.ts';
 import { createController, type ControllerConfig } from '../src/engine/controller-factory.ts';
 import { createEventBatch, VALUES_PER_EVENT, type EventBatch } from '../src/engine/events.ts';
 import { describeImplementation } from '../src/engine/implementation.ts';
-import { parseControlMessage, harmonicIndex, M, MAX_PANEL_HARMONICS, type ControlMessage, type PortLike, type WorkletMessage } from '../src/engine/messages.ts';
+import { parseControlMessage, harmonicIndex, M, MAX_PANEL_HARMONICS, type ControlMessage, type PortLike, type WorkletMessage } from '../src/protocol/messages.ts';
 import { createHarmonicReadout, type TonalController } from '../src/dsp/tonal-controller.ts';
 import type { Telemetry } from './adapter.ts';
 

@@ -15,7 +15,7 @@ import {
   type ProbeSpec,
   type PortLike,
   type WorkletMessage,
-} from '../src/engine/messages.ts';
+} from '../src/protocol/messages.ts';
 import { ChunkSender, InputConditioner, Telemetry, levels } from './adapter.ts';
 import { CalibrationTone } from './calibration-tone.ts';
 import { receive, applyEngineMessage, copyWeights, fillEngineExtras, inputNonFinite, playProbe, relayEngineEvents, EngineEventState } from './engine-events.ts';

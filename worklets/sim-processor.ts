@@ -2,7 +2,7 @@ import { PlantLoop } from '../src/plant/simulate.ts';
 import { OutputLimiter } from '../src/dsp/limiter.ts';
 import type { Scenario } from '../src/plant/scenario.ts';
 import { describeImplementation } from '../src/engine/implementation.ts';
-import { M, MODE_CODES, checkTelemetryOptions, type SimProcessorOptions, type PortLike, type WorkletMessage } from '../src/engine/messages.ts';
+import { M, MODE_CODES, checkTelemetryOptions, type SimProcessorOptions, type PortLike, type WorkletMessage } from '../src/protocol/messages.ts';
 import { ChunkSender, Telemetry, levels } from './adapter.ts';
 import { receive, applyEngineMessage, attachStandby, copyWeights, fillEngineExtras, relayEngineEvents, EngineEventState } from './engine-events.ts';
 

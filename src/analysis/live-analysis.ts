@@ -16,7 +16,7 @@ import { deconvolveSweep } from './sweep-deconvolve.ts';
 import { onsetDelaySamples, pathFrequencyResponse } from './path-model.ts';
 import { estimateDelay } from './delay-estimate.ts';
 import { nextPow2 } from './fft.ts';
-import type { ProbeSpec, AudioChunkMessage } from '../engine/messages.ts';
+import type { ProbeSpec, AudioChunkMessage } from '../protocol/messages.ts';
 
 /** Seconds of audio kept per signal for spectra and geometry. */
 export const HISTORY_S = 2;

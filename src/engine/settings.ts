@@ -3,7 +3,7 @@
  * whether it can change while the engine runs. Everything else is derived from these tables:
  *
  *   - the scenario file's zod schema (src/plant/scenario.ts, `schemaFromTable`),
- *   - the worklet message checks (src/engine/messages.ts, `checkSettings`),
+ *   - the worklet message checks (src/protocol/messages.ts, `checkSettings`),
  *   - the engine's own checks (`checkSettings` in the controller factory),
  *   - the panel's controls (ranges, hints, defaults: src/ui/controls.ts),
  *   - the settings table in docs/settings.md (`settingsMarkdown`, kept current by a test).

@@ -30,7 +30,7 @@ import { createOutputCalibration, micCalibrationFromRecording, SINE_CREST_DB, ty
 import { effectiveCeiling, type EffectiveCeiling } from '../plant/level-cap-check.ts';
 import { browserCalibrationStore, deviceKey, type StoredMicCalibration, type StoredOutputCalibration } from '../io/calibration-store.ts';
 import { buildLevelCheckReport, levelCheckHtml, reportJson, type LiveLevelCheckReport } from '../web/level-check-report.ts';
-import type { LevelCheckRequest } from '../engine/messages.ts';
+import type { LevelCheckRequest } from '../protocol/messages.ts';
 import type { AncbTones } from './tones.ts';
 import './tones.ts';
 import type { ScenarioEntry } from './sim-source.ts';
@@ -39,7 +39,7 @@ import { LIVE_MAX_QUANTUM, Session, SWITCH_CROSSFADE_MS, checkController, checke
 import { analysis } from '../web/analysis-client.ts';
 import { listDevices, loadChoice, reconcileChoice, requestMicrophonePermission, saveChoice, type DeviceChoice, type DeviceLists } from '../web/devices.ts';
 import { causalityVerdict, type CausalityVerdict, type GeometryResult, type IdentificationResult } from '../analysis/live-analysis.ts';
-import type { PanelEvent } from '../engine/messages.ts';
+import type { PanelEvent } from '../protocol/messages.ts';
 
 const PLOT_INTERVAL_MS = 100;
 const SPECTRUM_INTERVAL_MS = 500;

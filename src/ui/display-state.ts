@@ -5,7 +5,7 @@
  * so a steady tone reads steady; attenuation uses the engine's own F/S-like averages live, and in
  * the simulated plant the control-off twin the simulator computes alongside.
  */
-import { M, MAX_PANEL_HARMONICS, harmonicIndex } from '../engine/messages.ts';
+import { M, MAX_PANEL_HARMONICS, harmonicIndex } from '../protocol/messages.ts';
 import { powerToDbfs } from '../dsp/units.ts';
 
 export const FAST_S = 0.125;

@@ -26,7 +26,7 @@ import {
   type SimProcessorOptions,
   type TelemetryOptions,
   type WorkletMessage,
-} from '../engine/messages.ts';
+} from '../protocol/messages.ts';
 import type { OpenedInputs } from './devices.ts';
 
 export type AnyContext = IAudioContext | IOfflineAudioContext;

@@ -13,8 +13,8 @@
  */
 import type { IAudioContext } from 'standardized-audio-context';
 import { contextStats } from './native-context.ts';
-import { M } from '../engine/messages.ts';
-import type { PanelEvent } from '../engine/messages.ts';
+import { M } from '../protocol/messages.ts';
+import type { PanelEvent } from '../protocol/messages.ts';
 
 export interface LatencyWatchOptions {
   /** Error rise above the control-off level that counts, dB (default 6). */

@@ -13,7 +13,7 @@
  * `passed` holds only when the check passed and no sample handed to the output went above the
  * ceiling or was not finite.
  */
-import type { HandedToOutput } from '../engine/messages.ts';
+import type { HandedToOutput } from '../protocol/messages.ts';
 import type { LevelCapResult } from '../plant/level-cap-check.ts';
 import { renderLimitsReport } from '../io/limits-report-html.ts';
 import { safeJson } from '../io/json.ts';

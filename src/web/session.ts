@@ -16,7 +16,7 @@ import type { Scenario } from '../plant/scenario.ts';
 import { engineControllerConfig, trueSecondaryPath } from '../plant/simulate.ts';
 import { createController, type ControllerConfig } from '../engine/controller-factory.ts';
 import { DEFAULT_CROSSFADE_MS } from '../engine/engine.ts';
-import type { HandedToOutput, LevelCheckRequest, PanelEvent, ProbeSpec, WorkletMessage } from '../engine/messages.ts';
+import type { HandedToOutput, LevelCheckRequest, PanelEvent, ProbeSpec, WorkletMessage } from '../protocol/messages.ts';
 import type { LevelCapResult } from '../plant/level-cap-check.ts';
 import type { IdentificationResult } from '../analysis/live-analysis.ts';
 import { TelemetryChannel, buildMicGraph, createLiveNode, createMaster, createSimNode, openContext, rampGain, type AnyContext, type MicGraph } from './audio-graph.ts';

@@ -3,7 +3,7 @@ import { resolve } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { FXLMS_SETTINGS, LIMITER_SETTINGS, TONAL_SETTINGS, checkControllerSettings, settingsMarkdown, settingsProblems } from '../../src/engine/settings.ts';
 import { parseScenario } from '../../src/plant/scenario.ts';
-import { parseControlMessage } from '../../src/engine/messages.ts';
+import { parseControlMessage } from '../../src/protocol/messages.ts';
 import { Engine } from '../../src/engine/engine.ts';
 
 const base = {

@@ -9,7 +9,7 @@ import { describe, expect, it } from 'vitest';
 import { parseScenario } from '../../src/plant/scenario.ts';
 import { engineControllerConfig } from '../../src/plant/simulate.ts';
 import { panelSettingsFromScenario, scenarioForPanel } from '../../src/web/panel-settings.ts';
-import { parseControlMessage } from '../../src/engine/messages.ts';
+import { parseControlMessage } from '../../src/protocol/messages.ts';
 import { FXLMS_SETTINGS, TONAL_SETTINGS } from '../../src/engine/settings.ts';
 
 const dir = resolve(import.meta.dirname, '../../demo/scenarios');

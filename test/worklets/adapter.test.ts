@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { ChunkSender, InputConditioner, Telemetry } from '../../worklets/adapter.ts';
 import { Engine } from '../../src/engine/engine.ts';
-import { M, createTelemetryBuffer, TelemetryReader, type AudioChunkMessage, type PortLike } from '../../src/engine/messages.ts';
+import { M, createTelemetryBuffer, TelemetryReader, type AudioChunkMessage, type PortLike } from '../../src/protocol/messages.ts';
 
 class FakePort implements PortLike {
   readonly posted: unknown[] = [];

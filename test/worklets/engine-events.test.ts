@@ -3,7 +3,7 @@ import { applyEngineMessage } from '../../worklets/engine-events.ts';
 import { Telemetry } from '../../worklets/adapter.ts';
 import { Engine } from '../../src/engine/engine.ts';
 import type { ControllerConfig } from '../../src/engine/controller-factory.ts';
-import type { PortLike, WorkletMessage } from '../../src/engine/messages.ts';
+import type { PortLike, WorkletMessage } from '../../src/protocol/messages.ts';
 
 class FakePort implements PortLike {
   readonly posted: unknown[] = [];

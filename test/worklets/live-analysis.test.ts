@@ -3,7 +3,7 @@ import { LiveAnalysis, causalityVerdict, MIN_USABLE_SNR_DB } from '../../src/ana
 import { ExponentialSweep } from '../../src/dsp/sweep.ts';
 import { bandMisalignmentDb } from '../../src/analysis/path-model.ts';
 import { Random } from '../../src/dsp/random.ts';
-import type { ProbeSpec } from '../../src/engine/messages.ts';
+import type { ProbeSpec } from '../../src/protocol/messages.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 const FS = 48000;

@@ -11,7 +11,7 @@ import {
   encodeEvent,
   parseControlMessage,
   type PanelEvent,
-} from '../../src/engine/messages.ts';
+} from '../../src/protocol/messages.ts';
 
 function frame(t: number): Float64Array {
   const f = new Float64Array(METER_FRAME_LENGTH);

@@ -5,7 +5,7 @@
  */
 import { AudioBuffer, AudioBufferSourceNode, OfflineAudioContext } from 'standardized-audio-context';
 import { TelemetryChannel, createLiveNode, loadWorklets } from '../../../src/web/audio-graph.ts';
-import { meterFrameToObject, type PanelEvent } from '../../../src/engine/messages.ts';
+import { meterFrameToObject, type PanelEvent } from '../../../src/protocol/messages.ts';
 import type { ControllerConfig } from '../../../src/engine/controller-factory.ts';
 
 export interface RenderRequest {

@@ -12,9 +12,9 @@
  *  - posted: `{ type: 'meters', frame }` and `{ type: 'event', record }` messages on the node's port,
  *    each a preallocated object reused for every post (structured cloning copies it).
  */
-import { checkControllerSettings } from './settings.ts';
-import type { ControllerConfig } from './controller-factory.ts';
-import type { EngineMode } from './engine.ts';
+import { checkControllerSettings } from '../engine/settings.ts';
+import type { ControllerConfig } from '../engine/controller-factory.ts';
+import type { EngineMode } from '../engine/engine.ts';
 import {
   EVENT_ACTIONS,
   EVENT_CAUSES as ENGINE_EVENT_CAUSES,
@@ -23,7 +23,7 @@ import {
   type EngineEvent,
   type EventAction as EngineEventAction,
   type EventCause as EngineEventCause,
-} from './events.ts';
+} from '../engine/events.ts';
 
 // ---------------------------------------------------------------------------------------------
 // Meter frame: one Float64Array per display frame; index names below. Powers are mean squares
