@@ -2,8 +2,8 @@ import { Engine } from '../src/engine/engine.ts';
 import { describeImplementation } from '../src/engine/implementation.ts';
 import type { ControllerConfig } from '../src/engine/controller-factory.ts';
 import { ExponentialSweep } from '../src/dsp/sweep.ts';
-import { createOutputCalibration } from '../src/analysis/calibration.ts';
-import { LevelCapCheck, type LevelCapCheckConfig } from '../src/plant/level-cap-check.ts';
+import { createOutputCalibration } from '../src/engine/calibration.ts';
+import { LevelCapCheck, type LevelCapCheckConfig } from '../src/engine/level-cap-check.ts';
 import {
   M,
   MODE_CODES,
@@ -17,7 +17,7 @@ import {
   type WorkletMessage,
 } from '../src/protocol/messages.ts';
 import { ChunkSender, InputConditioner, Telemetry, levels } from './adapter.ts';
-import { CalibrationTone } from './calibration-tone.ts';
+import { CalibrationTone } from '../src/dsp/calibration-tone.ts';
 import { receive, applyEngineMessage, copyWeights, fillEngineExtras, inputNonFinite, playProbe, relayEngineEvents, EngineEventState } from './engine-events.ts';
 
 /** Raised-cosine fade of a calibration tone at its start and end, s. */

@@ -10,7 +10,7 @@
  * The nominal mid-band labels (31.5, 63, 125, … 1k, … 16k) are the standard's rounded names for the
  * exact values; always compute with `centerHz` and show `nominalHz`.
  */
-import { nextPow2 } from './fft.ts';
+import { nextPow2 } from '../dsp/fft.ts';
 import { requireFrequencyAxis, requireOutputLength, requirePositive, requireSameLength } from './validate.ts';
 
 /** Octave frequency ratio of the base-ten system, G = 10^(3/10). */

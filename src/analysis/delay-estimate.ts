@@ -23,7 +23,7 @@
  *   ~10/√M as no detection.
  *   Silent input gives delay 0 with peakValue 0.
  */
-import { inverseRealSpectrum, nextPow2, realSpectrum } from './fft.ts';
+import { inverseRealSpectrum, nextPow2, realSpectrum } from '../dsp/fft.ts';
 import { requireNonNegative, requireOutputLength, requirePositive } from './validate.ts';
 
 export interface DelayEstimateOptions {

@@ -15,7 +15,7 @@ import { welchPsd } from './welch.ts';
 import { deconvolveSweep } from './sweep-deconvolve.ts';
 import { onsetDelaySamples, pathFrequencyResponse } from './path-model.ts';
 import { estimateDelay } from './delay-estimate.ts';
-import { nextPow2 } from './fft.ts';
+import { nextPow2 } from '../dsp/fft.ts';
 import type { ProbeSpec, AudioChunkMessage } from '../protocol/messages.ts';
 
 /** Seconds of audio kept per signal for spectra and geometry. */

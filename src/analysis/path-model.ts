@@ -13,7 +13,7 @@
  * - Measurement SNR (windowSnrDb): energy in the response window over the energy that noise alone would put in a
  *   window of the same length, the noise power measured elsewhere (a noise-only stretch).
  */
-import { nextPow2, realSpectrum } from './fft.ts';
+import { nextPow2, realSpectrum } from '../dsp/fft.ts';
 
 /** Default onset threshold below the absolute peak, in dB. */
 export const ONSET_THRESHOLD_DB = 20;

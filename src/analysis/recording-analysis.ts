@@ -37,7 +37,7 @@ import { bandAttenuation, type LevelChange } from './band-attenuation.ts';
 import { bandPowers, fractionalOctaveBands, segmentLengthForBands, type BandFraction } from './bands.ts';
 import { causalityVerdict, coherenceBoundDb as boundOfCoherence, coherenceBoundSpectrum, overallCoherenceBoundDb, type CausalityVerdictKind } from './bounds.ts';
 import { estimateDelay, gccPhat } from './delay-estimate.ts';
-import { nextPow2 } from './fft.ts';
+import { nextPow2 } from '../dsp/fft.ts';
 import { summarizePathModel, type FrequencyResponse } from './path-model.ts';
 import { applyWeightingToPsd, type FrequencyWeighting } from './weighting.ts';
 import { alignByDelay, coherenceDelayBias, hannWindow, welchCrossSpectra, welchPsd } from './welch.ts';

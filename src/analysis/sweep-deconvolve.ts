@@ -14,7 +14,7 @@
  * L − 1 (L = sweep length in samples): `latencySamples`. Harmonic N's response starts T·fs·ln N / R samples
  * before it.
  */
-import { fftConvolve, nextPow2, realSpectrum } from './fft.ts';
+import { fftConvolve, nextPow2, realSpectrum } from '../dsp/fft.ts';
 import { windowSnrDb } from './path-model.ts';
 import { ExponentialSweep, type SweepOptions } from '../dsp/sweep.ts';
 

@@ -26,7 +26,7 @@
  * Either align the signals first (`estimateDelay` in delay-estimate.ts, then `alignByDelay`) or pick a
  * long segment (`segmentLengthForDelay`).
  */
-import { fftPlan, nextPow2 } from './fft.ts';
+import { fftPlan, nextPow2 } from '../dsp/fft.ts';
 import {
   requireIntegerInRange,
   requireNonNegative,

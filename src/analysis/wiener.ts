@@ -10,7 +10,7 @@
  * biased estimates (divided by N), computed by FFT, so R is positive semi-definite; the system is
  * solved by the Levinson recursion, and E_min is then measured by running the optimal filter on the data.
  */
-import { fftConvolve } from './fft.ts';
+import { fftConvolve } from '../dsp/fft.ts';
 import { solveToeplitz } from './toeplitz.ts';
 
 export interface WienerResult {

@@ -6,7 +6,7 @@
  * file, 2 for bad flags.
  */
 import { describeEventValues } from '../engine/events.ts';
-import { createOutputCalibration, type OutputCalibration } from '../analysis/calibration.ts';
+import { createOutputCalibration, type OutputCalibration } from '../engine/calibration.ts';
 import { TruePeakMeter } from '../dsp/true-peak.ts';
 import { amplitudeToDb } from '../dsp/units.ts';
 import { InputError, readJson, writeOutputs } from '../io/files-node.ts';
@@ -14,7 +14,7 @@ import { fixed, renderLimitsReport, type ClosedLoopCap } from '../io/limits-repo
 import { buildLimitsReport, type LimitsReportFields } from '../io/limits-report.ts';
 import { readReportAssets, REPORT_FILE } from '../io/report-html-node.ts';
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
-import { levelCapConfigFromScenario, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, type LevelCapResult, type TestSignalSettings } from '../plant/level-cap-check.ts';
+import { levelCapConfigFromScenario, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, type LevelCapResult, type TestSignalSettings } from '../engine/level-cap-check.ts';
 import type { Scenario } from '../plant/scenario.ts';
 import { simulate } from '../plant/simulate.ts';
 import type { WavTable } from '../plant/sources.ts';

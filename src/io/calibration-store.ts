@@ -10,7 +10,7 @@
  * No Node APIs: the storage is anything with getItem/setItem (localStorage, or a stand-in in tests);
  * when storage is unavailable the store keeps its data for the page's lifetime only.
  */
-import { createOutputCalibration, type MicCalibration, type OutputCalibration, type OutputCalibrationPoint } from '../analysis/calibration.ts';
+import { createOutputCalibration, type MicCalibration, type OutputCalibration, type OutputCalibrationPoint } from '../engine/calibration.ts';
 
 export const CALIBRATION_STORAGE_KEY = 'ancbench.calibration.v1';
 const VERSION = 1;

@@ -9,7 +9,7 @@
  * and every event of both runs.
  */
 import type { EngineEvent } from '../engine/events.ts';
-import type { LevelCapResult } from '../plant/level-cap-check.ts';
+import type { LevelCapResult } from '../engine/level-cap-check.ts';
 import { renderReportHtml, REPORT_COLORS, type PlotSpec, type ReportAssets, type ReportSection } from './report-html.ts';
 
 /** The scenario's closed loop run beside the check: its output against the same cap. */

@@ -7,7 +7,7 @@
  * (the host's `origin` fields), the rest of the check's headline figures, the host's `beforeCheck` fields,
  * `check` (the remaining result), `closedLoop`, `notes`, `history`, then the host's `tail` fields.
  */
-import type { LevelCapResult } from '../plant/level-cap-check.ts';
+import type { LevelCapResult } from '../engine/level-cap-check.ts';
 
 /** The first six fields of every level-cap report, fixed names shared by the command line and the panel. */
 export const FIXED_REPORT_KEYS = ['ceilingDbfs', 'maxSamplePeakDbfs', 'maxTruePeakDbtp', 'limiterMode', 'passed', 'events'] as const;

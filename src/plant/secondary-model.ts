@@ -9,7 +9,7 @@
  * H{s} is computed by FFT on a 4×-padded grid and truncated to the model length, so the rotation is
  * exact only up to that truncation (the Hilbert transform of a short path is not short).
  */
-import { inverseRealSpectrum, nextPow2, realSpectrum } from '../analysis/fft.ts';
+import { inverseRealSpectrum, nextPow2, realSpectrum } from '../dsp/fft.ts';
 
 export interface ModelImperfections {
   modelTaps?: number | undefined;

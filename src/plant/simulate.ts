@@ -17,7 +17,7 @@ import type { ControllerConfig } from '../engine/controller-factory.ts';
 import { Random } from '../dsp/random.ts';
 import { convergenceMetrics, type ConvergenceResult } from '../analysis/convergence.ts';
 import { wienerBound } from '../analysis/wiener.ts';
-import { fftConvolve } from '../analysis/fft.ts';
+import { fftConvolve } from '../dsp/fft.ts';
 import { amplitudeToDb, powerToDbfs } from '../dsp/units.ts';
 import { denseResponse } from './fractional-delay.ts';
 import { PathFilter } from './path-filter.ts';

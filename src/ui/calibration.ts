@@ -21,8 +21,8 @@
 import { LitElement, css, html } from 'lit';
 import { shared, formLayout, dialogStyles, tableStyles } from './theme.ts';
 import { dataValue as dv, fmtDb, fmtHz, readNumberField } from './format.ts';
-import { ceilingDbfsForPeakSpl, createOutputCalibration, dbfsToDbSpl, SINE_CREST_DB, type OutputCalibration } from '../analysis/calibration.ts';
-import type { EffectiveCeiling } from '../plant/level-cap-check.ts';
+import { ceilingDbfsForPeakSpl, createOutputCalibration, dbfsToDbSpl, SINE_CREST_DB, type OutputCalibration } from '../engine/calibration.ts';
+import type { EffectiveCeiling } from '../engine/level-cap-check.ts';
 import type { StoredMicCalibration, StoredOutputCalibration } from '../io/calibration-store.ts';
 import { TONE_DBFS_RANGE, TONE_MAX_S, TONE_MIN_HZ } from '../protocol/messages.ts';
 import { emit } from './emit.ts';

@@ -17,7 +17,7 @@ import type { PlotConfig, AncbPlot } from './plot.ts';
 import './plot.ts';
 import type { LiveLevelCheckReport } from '../web/level-check-report.ts';
 import type { LevelCheckRequest } from '../protocol/messages.ts';
-import { DEFAULT_HOLD_S, DEFAULT_GAP_S, DEFAULT_OVER_DB, DEFAULT_START_DBFS } from '../plant/level-cap-check.ts';
+import { DEFAULT_HOLD_S, DEFAULT_GAP_S, DEFAULT_OVER_DB, DEFAULT_START_DBFS } from '../engine/level-cap-check.ts';
 import { emit } from './emit.ts';
 
 export const LC_RAMP_S_DEFAULT = 2;

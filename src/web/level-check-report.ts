@@ -14,7 +14,7 @@
  * ceiling or was not finite.
  */
 import type { HandedToOutput } from '../protocol/messages.ts';
-import type { LevelCapResult } from '../plant/level-cap-check.ts';
+import type { LevelCapResult } from '../engine/level-cap-check.ts';
 import { renderLimitsReport } from '../io/limits-report-html.ts';
 import { safeJson } from '../io/json.ts';
 import { buildLimitsReport, type LimitsReportFields } from '../io/limits-report.ts';

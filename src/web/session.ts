@@ -17,7 +17,7 @@ import { engineControllerConfig, trueSecondaryPath } from '../plant/simulate.ts'
 import { createController, type ControllerConfig } from '../engine/controller-factory.ts';
 import { DEFAULT_CROSSFADE_MS } from '../engine/engine.ts';
 import type { HandedToOutput, LevelCheckRequest, PanelEvent, ProbeSpec, WorkletMessage } from '../protocol/messages.ts';
-import type { LevelCapResult } from '../plant/level-cap-check.ts';
+import type { LevelCapResult } from '../engine/level-cap-check.ts';
 import type { IdentificationResult } from '../analysis/live-analysis.ts';
 import { TelemetryChannel, buildMicGraph, createLiveNode, createMaster, createSimNode, openContext, rampGain, type AnyContext, type MicGraph } from './audio-graph.ts';
 import { analysis, connectAudioToAnalysis } from './analysis-client.ts';

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { Random } from '../../src/dsp/random.ts';
 import { estimateDelay, gccPhat } from '../../src/analysis/delay-estimate.ts';
-import { inverseRealSpectrum, realSpectrum } from '../../src/analysis/fft.ts';
+import { inverseRealSpectrum, realSpectrum } from '../../src/dsp/fft.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 /**

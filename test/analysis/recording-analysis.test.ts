@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { analyzeRecordings } from '../../src/analysis/recording-analysis.ts';
 import { Random } from '../../src/dsp/random.ts';
 import { addFractionalDelay } from '../../src/plant/fractional-delay.ts';
-import { fftConvolve } from '../../src/analysis/fft.ts';
+import { fftConvolve } from '../../src/dsp/fft.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 const fs = 8000;

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { deconvolveSweep, inverseSweepFilter } from '../../src/analysis/sweep-deconvolve.ts';
 import { bandMisalignmentDb, onsetDelaySamples } from '../../src/analysis/path-model.ts';
-import { fftConvolve, inverseRealSpectrum, nextPow2, realSpectrum } from '../../src/analysis/fft.ts';
+import { fftConvolve, inverseRealSpectrum, nextPow2, realSpectrum } from '../../src/dsp/fft.ts';
 import { exponentialSweepSignal, harmonicAdvanceS, type SweepOptions } from '../../src/dsp/sweep.ts';
 import { Random } from '../../src/dsp/random.ts';
 import { buildPathResponse, denseResponse } from '../../src/plant/fractional-delay.ts';

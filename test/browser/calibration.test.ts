@@ -2,7 +2,7 @@ import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import { mkdirSync } from 'node:fs';
 import { resolve } from 'node:path';
 import type { Browser, Page } from 'playwright';
-import { ceilingDbfsForPeakSpl, createOutputCalibration, dbfsToDbSpl } from '../../src/analysis/calibration.ts';
+import { ceilingDbfsForPeakSpl, createOutputCalibration, dbfsToDbSpl } from '../../src/engine/calibration.ts';
 import { fakeMicArgs, launch, watchPage, writeStereoToneWav } from './helpers.ts';
 
 const root = resolve(import.meta.dirname, '../..');

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { NoiseProbeIdentifier, type NoiseIdentifierOptions } from '../../src/dsp/identify-lms.ts';
 import { bandMisalignmentDb, misalignmentDb } from '../../src/analysis/path-model.ts';
-import { realSpectrum } from '../../src/analysis/fft.ts';
+import { realSpectrum } from '../../src/dsp/fft.ts';
 import { Random } from '../../src/dsp/random.ts';
 import { powerToDbfs } from '../../src/dsp/units.ts';
 import { buildPathResponse, denseResponse } from '../../src/plant/fractional-delay.ts';

@@ -6,7 +6,7 @@ import {
   sabineT60,
   schroederDecayDb,
 } from '../../src/plant/room.ts';
-import { realSpectrum } from '../../src/analysis/fft.ts';
+import { realSpectrum } from '../../src/dsp/fft.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 describe('sabineT60 and eyringT60', () => {

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { simulate, PlantLoop } from '../../src/plant/simulate.ts';
 import { ScenarioError } from '../../src/plant/scenario.ts';
-import { fftConvolve } from '../../src/analysis/fft.ts';
+import { fftConvolve } from '../../src/dsp/fft.ts';
 import { pathResponse } from '../../src/plant/scenario.ts';
 import { denseResponse } from '../../src/plant/fractional-delay.ts';
 import { noiseScenario, toneScenario } from '../helpers/scenarios.ts';

@@ -8,7 +8,7 @@
  *
  * Allocates nothing after construction; `start` may be called again for the next tone.
  */
-import { powerToDbfs } from '../src/dsp/units.ts';
+import { powerToDbfs } from './units.ts';
 
 export class CalibrationTone {
   hz = 0;

@@ -11,7 +11,7 @@ import {
   micDbSplToDbfs,
   SINE_CREST_DB,
   type LevelResult,
-} from '../../src/analysis/calibration.ts';
+} from '../../src/engine/calibration.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 function value(r: LevelResult): number {

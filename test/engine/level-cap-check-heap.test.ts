@@ -1,5 +1,5 @@
 import { describe, it, expect } from 'vitest';
-import { LevelCapCheck } from '../../src/plant/level-cap-check.ts';
+import { LevelCapCheck } from '../../src/engine/level-cap-check.ts';
 import { createEventBatch } from '../../src/engine/events.ts';
 import { HEAP_BLOCKS, HEAP_BUDGET_BYTES, heapGrowth } from '../helpers/heap.ts';
 

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { Random } from '../../src/dsp/random.ts';
-import { fftConvolve, fftPlan, inverseRealSpectrum, nextPow2, realSpectrum } from '../../src/analysis/fft.ts';
+import { fftConvolve, fftPlan, inverseRealSpectrum, nextPow2, realSpectrum } from '../../src/dsp/fft.ts';
 import { expectClose, normRelError } from '../helpers/tolerance.ts';
 
 function randomSignal(seed: number, count: number): Float64Array {

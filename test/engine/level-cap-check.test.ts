@@ -6,7 +6,7 @@ import {
   runLevelCapCheck,
   TRUE_PEAK_TOLERANCE_DB,
   type LevelCapCheckConfig,
-} from '../../src/plant/level-cap-check.ts';
+} from '../../src/engine/level-cap-check.ts';
 import { PlantLoop } from '../../src/plant/simulate.ts';
 import { BS1770_INTERPOLATOR, TruePeakMeter } from '../../src/dsp/true-peak.ts';
 import type { Controller } from '../../src/dsp/controller.ts';

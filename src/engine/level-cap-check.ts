@@ -51,10 +51,9 @@
 import type { Controller } from '../dsp/controller.ts';
 import { Random } from '../dsp/random.ts';
 import { TruePeakMeter } from '../dsp/true-peak.ts';
-import { Engine, DEFAULT_CEILING_DBFS, DEFAULT_RAMP_MS, type EngineConfig, type LimiterSettings } from '../engine/engine.ts';
-import { drainEvents, type EngineEvent } from '../engine/events.ts';
-import { ceilingDbfsForPeakSpl, SINE_CREST_DB, type MicCalibration, type OutputCalibration, type SplCeiling } from '../analysis/calibration.ts';
-import { scenarioCeilingDbfs, type Scenario } from './scenario.ts';
+import { Engine, DEFAULT_CEILING_DBFS, DEFAULT_RAMP_MS, type EngineConfig, type LimiterSettings } from './engine.ts';
+import { drainEvents, type EngineEvent } from './events.ts';
+import { ceilingDbfsForPeakSpl, SINE_CREST_DB, type MicCalibration, type OutputCalibration, type SplCeiling } from './calibration.ts';
 
 export type LimiterMode = 'zero-latency' | 'look-ahead' | 'true-peak';
 export type TestSignalKind = 'tone' | 'noise' | 'adversarial';
@@ -154,11 +153,21 @@ export function effectiveCeiling(dbfsCeiling: number, calibration?: OutputCalibr
  * The check's configuration for a scenario: the output stage exactly as the simulator's PlantLoop
  * builds it (limiter settings, ceiling or its shorthand, highPassHz or 0, no DC blocker, the guard).
  */
-export function levelCapConfigFromScenario(sc: Scenario, extra: Pick<LevelCapCheckConfig, 'signal' | 'outputCalibration' | 'peakCeilingDbSpl' | 'micCalibration'> = {}): LevelCapCheckConfig {
+/** The parts of a scenario (src/plant/scenario.ts) the check reads: the engine layer does not import the schema. */
+export interface OutputStageOfScenario {
+  sampleRate: number;
+  blockSize: number;
+  limiter?: LimiterSettings | undefined;
+  outputCeilingDbfs?: number | undefined;
+  highPassHz?: number | undefined;
+  guard?: false | Record<string, unknown> | undefined;
+}
+
+export function levelCapConfigFromScenario(sc: OutputStageOfScenario, extra: Pick<LevelCapCheckConfig, 'signal' | 'outputCalibration' | 'peakCeilingDbSpl' | 'micCalibration'> = {}): LevelCapCheckConfig {
   return {
     sampleRate: sc.sampleRate,
     blockSize: sc.blockSize,
-    limiter: { ...(sc.limiter ?? {}), ceilingDbfs: scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS) },
+    limiter: { ...(sc.limiter ?? {}), ceilingDbfs: sc.limiter?.ceilingDbfs ?? sc.outputCeilingDbfs ?? DEFAULT_CEILING_DBFS },
     highPassHz: sc.highPassHz ?? 0,
     dcBlockerHz: 0,
     ...(sc.guard === false ? { guard: false as const } : sc.guard ? { guard: sc.guard as EngineConfig['guard'] } : {}),

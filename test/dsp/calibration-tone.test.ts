@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { CalibrationTone } from '../../worklets/calibration-tone.ts';
+import { CalibrationTone } from '../../src/dsp/calibration-tone.ts';
 
 const FS = 48000;
 const BLOCK = 128;

@@ -1,6 +1,6 @@
 import { describe, it, expect } from 'vitest';
-import { createOutputCalibration, dbfsToDbSpl, SINE_CREST_DB, type LevelResult } from '../../src/analysis/calibration.ts';
-import { effectiveCeiling, runLevelCapCheck } from '../../src/plant/level-cap-check.ts';
+import { createOutputCalibration, dbfsToDbSpl, SINE_CREST_DB, type LevelResult } from '../../src/engine/calibration.ts';
+import { effectiveCeiling, runLevelCapCheck } from '../../src/engine/level-cap-check.ts';
 import { expectClose } from '../helpers/tolerance.ts';
 
 // The ceiling rule of issue 5: set in dBFS and, with an output calibration, in dB SPL at the listening
