@@ -44,7 +44,7 @@ const OPEN_SLACK_S = 0.2;
  *    reads that many dBFS) with 50 ms raised-cosine ends, through processProbe, at least 0.5 dB below
  *    the cap; on stop the AES17 level of what was handed to the output over the steady part is
  *    reported (the calibration stores that, not the nominal level);
- *  - level-cap check ('level-check'): src/plant/level-cap-check.ts's streaming LevelCapCheck, whose
+ *  - level-cap check ('level-check'): src/engine/level-cap-check.ts's streaming LevelCapCheck, whose
  *    own engine has this engine's output stage (same ceiling rule, high-pass, DC blocker, ramp,
  *    limiter mode, guard) with a test-signal source in the controller's place; this processor also
  *    counts every sample it hands to the output against the check's ceiling.

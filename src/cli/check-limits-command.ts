@@ -1,6 +1,6 @@
 /**
  * `ancbench check-limits <scenario.json> [--json] [--out DIR]`: the level-cap check on a scenario's output
- * stage (src/plant/level-cap-check.ts) and the scenario's closed loop against the same cap.
+ * stage (src/engine/level-cap-check.ts) and the scenario's closed loop against the same cap.
  *
  * Exit status: 0 when the cap held, 3 when it was exceeded (by the check or the closed loop), 1 for a bad
  * file, 2 for bad flags.

@@ -41,7 +41,7 @@
  * ceiling, also the error mic's peak SPL at most the SPL ceiling.
  *
  * Ceiling: the dBFS ceiling, or, with an output calibration and a peak SPL ceiling, the stricter of
- * the two (src/analysis/calibration.ts: the highest sensitivity measured across the calibrated
+ * the two (src/engine/calibration.ts: the highest sensitivity measured across the calibrated
  * frequencies sets the dBFS equivalent; SPL ceilings are peak-based).
  *
  * `LevelCapCheck` is the streaming form: a host (the simulator here, the AudioWorklet live) calls

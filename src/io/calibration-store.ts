@@ -5,7 +5,7 @@
  *  - per microphone (device and channel): its calibration from a source of known SPL.
  * Device ids are the browser's own (stable per site); '' (the system default) is kept as 'default'.
  *
- * Stored readings are checked again on load with src/analysis/calibration.ts (createOutputCalibration,
+ * Stored readings are checked again on load with src/engine/calibration.ts (createOutputCalibration,
  * the microphone ranges): an entry that no longer validates is dropped and reported, never used.
  * No Node APIs: the storage is anything with getItem/setItem (localStorage, or a stand-in in tests);
  * when storage is unavailable the store keeps its data for the page's lifetime only.

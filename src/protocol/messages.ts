@@ -436,14 +436,14 @@ export const RECORD_MAX_S = 10;
 /** Controller crossfade limits, ms (Engine.switchController takes 0 … 10000). */
 export const CROSSFADE_RANGE_MS: readonly [number, number] = [0, 10000];
 
-/** One output-calibration reading (src/analysis/calibration.ts OutputCalibrationPoint). */
+/** One output-calibration reading (src/engine/calibration.ts OutputCalibrationPoint). */
 export interface CalibrationReading {
   hz: number;
   dbfs: number;
   measuredDbSpl: number;
 }
 
-/** A microphone calibration (src/analysis/calibration.ts MicCalibration). */
+/** A microphone calibration (src/engine/calibration.ts MicCalibration). */
 export interface MicCalibrationData {
   hz: number;
   sensitivityDbSpl: number;
@@ -452,7 +452,7 @@ export interface MicCalibrationData {
 }
 
 /**
- * A live level-cap check (src/plant/level-cap-check.ts): the user's dBFS cap, and optionally an
+ * A live level-cap check (src/engine/level-cap-check.ts): the user's dBFS cap, and optionally an
  * output calibration with a peak SPL cap (the stricter cap applies) and an error-mic calibration.
  * The signal settings are checked by the check itself (its messages name each field).
  */
@@ -526,7 +526,7 @@ export type WorkletMessage =
   /** measuredDbfs: AES17 RMS level of the samples handed to the output over the tone's steady part. */
   | { type: 'tone-stopped'; hz: number; dbfs: number; measuredDbfs: number; samples: number }
   | { type: 'recording'; err: Float32Array; ref: Float32Array; sampleRate: number }
-  /** result: a LevelCapResult (src/plant/level-cap-check.ts), typed by the page. */
+  /** result: a LevelCapResult (src/engine/level-cap-check.ts), typed by the page. */
   | { type: 'level-check-result'; result: unknown; output: HandedToOutput }
   | { type: 'stopped' };
 

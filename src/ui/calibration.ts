@@ -4,7 +4,7 @@
  * Output (loudspeaker → ear position), per output device: the user plays a calibration tone at a set
  * level (default −30 dBFS, AES17) at a frequency in the band of use, reads the SPL at the ear position
  * on a sound level meter and enters it. Each reading gives a sensitivity S(f) = SPL − dBFS (the RMS
- * SPL a full-scale sine would give there; src/analysis/calibration.ts does all the arithmetic: this
+ * SPL a full-scale sine would give there; src/engine/calibration.ts does all the arithmetic: this
  * element only shows its results). The calibration holds between the lowest and highest frequency
  * measured; outside that range SPL is unknown and not shown. With a calibration the cap can also be
  * set in dB SPL (peak): its dBFS equivalent uses the highest sensitivity measured, +3.01 dB for a

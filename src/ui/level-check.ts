@@ -1,5 +1,5 @@
 /**
- * <ancb-level-check>: the live level-cap check (src/plant/level-cap-check.ts, run by the live audio
+ * <ancb-level-check>: the live level-cap check (src/engine/level-cap-check.ts, run by the live audio
  * processor). With the user's consent (a confirm step naming what will play), a tone and noise (and,
  * when asked, adversarial patterns: square waves near Nyquist, steps, bursts, NaN and huge values)
  * each ramp from a safe start level to a set amount above the cap through the output stage; every

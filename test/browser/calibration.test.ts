@@ -101,7 +101,7 @@ describe('calibration in the panel (Chromium fake devices)', () => {
     for (const ch of ['ref', 'err', 'out']) expect(await page.locator(`ancb-meter[channel=${ch}]`).getAttribute('data-spl')).toBeNull();
   });
 
-  it('should show the sensitivities, range and SPL cap that src/analysis/calibration.ts computes from the readings', async () => {
+  it('should show the sensitivities, range and SPL cap that src/engine/calibration.ts computes from the readings', async () => {
     for (const r of READINGS) await takeReading(page, r);
     // what was stored: the levels the processor measured at its output, not the nominal ones
     const stored = await page.evaluate(() => document.querySelector('ancb-app')!.outputCal!.points);

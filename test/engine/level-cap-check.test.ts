@@ -203,7 +203,7 @@ describe('level-cap check', () => {
 
   it('should measure the error microphone when the host gives it, in dB SPL with a microphone calibration', () => {
     // Peak SPL of a sine = its RMS SPL + 20·log10(√2) = +3.01 dB (definition of peak level); the mic
-    // sensitivity is the RMS SPL that reads 0 dBFS (AES17), as in src/analysis/calibration.ts.
+    // sensitivity is the RMS SPL that reads 0 dBFS (AES17), as in src/engine/calibration.ts.
     const micCalibration = { hz: 1000, sensitivityDbSpl: 110, validFromHz: 100, validToHz: 4000 };
     const chk = new LevelCapCheck(cfg({ micCalibration, signal: { ...QUICK, kinds: ['tone'] } }));
     const out = new Float32Array(64);
