@@ -38,20 +38,4 @@ declare const currentTime: number;
 /** Frame index of the block being processed. */
 declare const currentFrame: number;
 
-// The JavaScript WebAssembly API exists in AudioWorkletGlobalScope (it is part of the language host,
-// not of the DOM), but TypeScript declares it only in the DOM and worker libraries. The part the
-// FxLMS kernels use (src/dsp/wasm-module.ts):
-declare namespace WebAssembly {
-  class Module {
-    constructor(bytes: BufferSource);
-  }
-  class Instance {
-    constructor(module: Module, importObject?: Record<string, unknown>);
-    readonly exports: Record<string, unknown>;
-  }
-  class Memory {
-    readonly buffer: ArrayBuffer;
-  }
-  function validate(bytes: BufferSource): boolean;
-}
-type BufferSource = ArrayBufferView | ArrayBuffer;
+// WebAssembly: types/webassembly-core.d.ts (shared with the core's type check, tsconfig.core.json).
