@@ -62,7 +62,7 @@ describe('layers', () => {
   const files = table.flatMap((l) => walk(join(root, l.folder)));
 
   it('should read a table that names every folder of src/ and worklets/', () => {
-    expect(table.map((l) => l.name)).toEqual(expect.arrayContaining(['dsp', 'engine', 'protocol', 'plant', 'analysis', 'io', 'cli', 'worklets', 'web', 'ui']));
+    expect(table.map((l) => l.name)).toEqual(expect.arrayContaining(['dsp', 'engine', 'live', 'protocol', 'plant', 'analysis', 'io', 'cli', 'worklets', 'web', 'ui']));
     const folders = readdirSync(join(root, 'src')).filter((f) => statSync(join(root, 'src', f)).isDirectory());
     for (const f of folders) expect(table.some((l) => l.folder === `src/${f}`), `src/${f} is not in the layer table`).toBe(true);
   });
