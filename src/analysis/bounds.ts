@@ -90,6 +90,10 @@ export function overallCoherenceBoundDb(
 export type CausalityVerdictKind = 'broadband' | 'predictable-only' | 'unknown';
 
 export interface CausalityVerdict {
+  /** Acoustic delay from the reference mic to the error mic along the noise path, ms. */
+  primaryDelayMs: number;
+  /** Secondary-path delay (loudspeaker drive to error mic, audio I/O included), ms; null when not identified yet. */
+  secondaryDelayMs: number | null;
   /** Primary delay minus secondary-path delay (ms); null when the secondary delay is unknown. */
   marginMs: number | null;
   verdict: CausalityVerdictKind;
@@ -109,6 +113,8 @@ export function causalityVerdict(primaryDelayMs: number, secondaryDelayMs: numbe
   }
   if (secondaryDelayMs === null) {
     return {
+      primaryDelayMs,
+      secondaryDelayMs,
       marginMs: null,
       verdict: 'unknown',
       sentence:
@@ -123,6 +129,8 @@ export function causalityVerdict(primaryDelayMs: number, secondaryDelayMs: numbe
   const ms = (v: number): string => `${v.toFixed(2)} ms`;
   if (marginMs >= 0) {
     return {
+      primaryDelayMs,
+      secondaryDelayMs,
       marginMs,
       verdict: 'broadband',
       sentence:
@@ -131,12 +139,15 @@ export function causalityVerdict(primaryDelayMs: number, secondaryDelayMs: numbe
     };
   }
   return {
+    primaryDelayMs,
+    secondaryDelayMs,
     marginMs,
     verdict: 'predictable-only',
     sentence:
       `The loudspeaker path needs ${ms(secondaryDelayMs)} but the noise gets from the reference to the error ` +
       `microphone in ${ms(primaryDelayMs)}, so the controller is ${ms(-marginMs)} too late: only predictable ` +
-      'noise (tones, hum, periodic sounds) can be cancelled, not random broadband noise.',
+      'noise (tones, hum, periodic sounds) can be cancelled, not random broadband noise. Move the reference ' +
+      'mic closer to the source or use lower-latency audio for broadband noise.',
   };
 }
 

@@ -16,6 +16,7 @@ import { deconvolveSweep } from './sweep-deconvolve.ts';
 import { onsetDelaySamples, pathFrequencyResponse } from './path-model.ts';
 import { estimateDelay } from './delay-estimate.ts';
 import { nextPow2 } from '../dsp/fft.ts';
+import { causalityVerdict, type CausalityVerdict } from './bounds.ts';
 import type { ProbeSpec, AudioChunkMessage } from '../protocol/messages.ts';
 
 /** Seconds of audio kept per signal for spectra and geometry. */
@@ -66,16 +67,6 @@ export interface PathView {
   truePath: Float64Array | null;
 }
 
-export interface CausalityVerdict {
-  /** Acoustic delay from reference mic to error mic along the noise path, ms. */
-  primaryDelayMs: number;
-  /** Secondary-path delay (round trip through the audio I/O, loudspeaker and air), ms. */
-  secondaryDelayMs: number;
-  /** primary − secondary, ms: ≥ 0 means broadband control is causal. */
-  marginMs: number;
-  causal: boolean;
-  text: string;
-}
 
 export interface GeometryResult {
   primaryDelayMs: number | null;
@@ -123,18 +114,6 @@ class Ring {
   }
 }
 
-export function causalityVerdict(primaryDelayMs: number, secondaryDelayMs: number): CausalityVerdict {
-  const marginMs = primaryDelayMs - secondaryDelayMs;
-  const causal = marginMs >= 0;
-  const text = causal
-    ? `Causal: the noise takes ${primaryDelayMs.toFixed(1)} ms from the reference mic to the error mic, ` +
-      `the control signal ${secondaryDelayMs.toFixed(1)} ms; broadband noise can be cancelled (margin ${marginMs.toFixed(1)} ms).`
-    : `Not causal for broadband noise: the control signal arrives ${(-marginMs).toFixed(1)} ms after the noise ` +
-      `(${secondaryDelayMs.toFixed(1)} ms against ${primaryDelayMs.toFixed(1)} ms). Tonal and periodic noise can still be ` +
-      `cancelled because it is predictable; expect little broadband attenuation. Move the reference mic closer to the source ` +
-      `or use lower-latency audio.`;
-  return { primaryDelayMs, secondaryDelayMs, marginMs, causal, text };
-}
 
 export class LiveAnalysis {
   private sampleRate = 0;

@@ -280,3 +280,12 @@ export function pathResponse(p: PathSpec, sampleRate: number): SparseResponse {
 export function scenarioCeilingDbfs(s: Scenario, fallback: number): number {
   return s.limiter?.ceilingDbfs ?? s.outputCeilingDbfs ?? fallback;
 }
+
+/**
+ * Whether the scenario's noise is stationary: no drifting or stepping tone, no recorded source. Only
+ * then is the Wiener figure a bound on an adaptive controller (else it is the best fixed filter over
+ * the run).
+ */
+export function isStationary(sc: Scenario): boolean {
+  return sc.sources.every((s) => !('driftHzPerS' in s && s.driftHzPerS) && !(s.kind === 'tone' && s.steps?.length) && s.kind !== 'wav');
+}

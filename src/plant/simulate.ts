@@ -21,7 +21,7 @@ import { fftConvolve } from '../dsp/fft.ts';
 import { amplitudeToDb, powerToDbfs } from '../dsp/units.ts';
 import { denseResponse } from './fractional-delay.ts';
 import { PathFilter } from './path-filter.ts';
-import { pathResponse, scenarioCeilingDbfs, ScenarioError, type Scenario } from './scenario.ts';
+import { isStationary, pathResponse, scenarioCeilingDbfs, ScenarioError, type Scenario } from './scenario.ts';
 import { createSource, type SourceGenerator, type WavTable } from './sources.ts';
 import { imperfectModel } from './secondary-model.ts';
 import { TonalController } from '../dsp/tonal-controller.ts';
@@ -467,7 +467,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     notes.attenuationDb = conv.offPower === 0 ? 'the error signal is silent with control off' : 'the error signal is silent with control on (no sensor noise?)';
     attenuationDb = null;
   }
-  const stationary = sc.sources.every((s) => !(('driftHzPerS' in s) && s.driftHzPerS) && !(s.kind === 'tone' && s.steps?.length) && s.kind !== 'wav');
+  const stationary = isStationary(sc);
   let wienerBoundDb: number | null = null;
   const L = sc.controller.algorithm === 'tonal' ? 0 : sc.controller.taps;
   if (sc.controller.algorithm === 'tonal') {

@@ -38,7 +38,8 @@ import type { AncbLiveSetup } from './live-setup.ts';
 import { LIVE_MAX_QUANTUM, Session, SWITCH_CROSSFADE_MS, checkController, checkedSimScenario, defaultProbe, panelSettingsFromScenario, type ControlSettings, type ModelInfo } from '../web/session.ts';
 import { analysis } from '../web/analysis-client.ts';
 import { listDevices, loadChoice, reconcileChoice, requestMicrophonePermission, saveChoice, type DeviceChoice, type DeviceLists } from '../web/devices.ts';
-import { causalityVerdict, type CausalityVerdict, type GeometryResult, type IdentificationResult } from '../analysis/live-analysis.ts';
+import { causalityVerdict, type CausalityVerdict } from '../analysis/bounds.ts';
+import type { GeometryResult, IdentificationResult } from '../analysis/live-analysis.ts';
 import type { PanelEvent } from '../protocol/messages.ts';
 
 const PLOT_INTERVAL_MS = 100;

@@ -10,7 +10,8 @@ import { LitElement, css, html } from 'lit';
 import { shared, formLayout } from './theme.ts';
 import { fmtDb, fmtMs } from './format.ts';
 import type { DeviceChoice, DeviceLists, MicLayout } from '../web/devices.ts';
-import type { CausalityVerdict, GeometryResult, IdentificationResult } from '../analysis/live-analysis.ts';
+import type { CausalityVerdict } from '../analysis/bounds.ts';
+import type { GeometryResult, IdentificationResult } from '../analysis/live-analysis.ts';
 import { emit } from './emit.ts';
 
 export const PROBE_RANGE_DBFS: [number, number] = [-50, -12];
@@ -199,7 +200,7 @@ export class AncbLiveSetup extends LitElement {
       <p class="muted small">With control off and the noise running, measure how long the noise takes from the reference mic to the error mic.</p>
       <button id="geometry" ?disabled=${!this.open || this.busy === 'geometry'} @click=${() => emit(this, 'ancb-geometry')}>Measure mic geometry</button>
       ${g && g.primaryDelayMs === null ? html`<p class="warn">${g.note}</p>` : ''}
-      ${v ? html`<p class="verdict ${v.causal ? '' : 'no'}" data-causal=${String(v.causal)}>${v.text}</p>` : ''}`;
+      ${v ? html`<p class="verdict ${v.verdict === 'broadband' ? '' : 'no'}" data-causal=${String(v.verdict === 'broadband')}>${v.sentence}</p>` : ''}`;
   }
 
   protected override render(): unknown {

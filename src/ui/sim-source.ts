@@ -7,7 +7,7 @@
 import { LitElement, css, html } from 'lit';
 import { shared, formLayout } from './theme.ts';
 import type { Scenario } from '../plant/scenario.ts';
-import { causalityVerdict } from '../analysis/live-analysis.ts';
+import { causalityVerdict } from '../analysis/bounds.ts';
 import { scenarioDelays, MONITOR_CEILING_DBFS } from '../web/session.ts';
 import { emit } from './emit.ts';
 
@@ -85,7 +85,7 @@ export class AncbSimSource extends LitElement {
         <label><input type="radio" name="src" value="off" .checked=${this.monitorSource === 'off'} @change=${() => this.monitor(this.monitorGainDb, 'off')} />error mic without control</label>
       </fieldset>
       ${sc ? html`<p class="muted small">${sc.description ?? ''} (${sc.sampleRate / 1000} kHz, block ${sc.blockSize})</p>` : ''}
-      ${v ? html`<p class="verdict ${v.causal ? '' : 'no'}" data-causal=${String(v.causal)}>${v.text}</p>` : ''}
+      ${v ? html`<p class="verdict ${v.verdict === 'broadband' ? '' : 'no'}" data-causal=${String(v.verdict === 'broadband')}>${v.sentence}</p>` : ''}
       <p class="muted small">The listening signal is capped at ${MONITOR_CEILING_DBFS} dBFS peak. Keep your system volume low.</p>
     </section>`;
   }

@@ -138,8 +138,12 @@ export function checkedSimScenario(sc: Scenario, settings: ControlSettings): Sce
   return scenario;
 }
 
-/** Scenarios whose sources drift or come from files cannot run forever: they stop at durationS. */
-export function isStationary(sc: Scenario): boolean {
+/**
+ * Whether the simulated plant can run without end: drifting sources would leave the band and file
+ * sources end, so those stop at durationS (frequency steps hold their last value and may run on).
+ * Not the statistical stationarity of src/plant/scenario.ts `isStationary`.
+ */
+export function runsWithoutEnd(sc: Scenario): boolean {
   return sc.sources.every((s) => s.kind !== 'wav' && !('driftHzPerS' in s && s.driftHzPerS));
 }
 
@@ -263,7 +267,7 @@ export class Session {
     this.stale = false;
     await this.wire(node, ctx, telemetry);
     if (!settings.adaptation) this.post({ type: 'set-adaptation', on: false });
-    if (!isStationary(scenario)) {
+    if (!runsWithoutEnd(scenario)) {
       this.endTimer = setTimeout(() => {
         this.handlers.warning(`end of the scenario (${scenario.durationS} s): its tone drifts, so it does not run for ever. Press Start to play it again`);
         void this.stop();

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { LiveAnalysis, causalityVerdict, MIN_USABLE_SNR_DB } from '../../src/analysis/live-analysis.ts';
+import { LiveAnalysis, MIN_USABLE_SNR_DB } from '../../src/analysis/live-analysis.ts';
+import { causalityVerdict } from '../../src/analysis/bounds.ts';
 import { ExponentialSweep } from '../../src/dsp/sweep.ts';
 import { bandMisalignmentDb } from '../../src/analysis/path-model.ts';
 import { Random } from '../../src/dsp/random.ts';
@@ -88,11 +89,11 @@ describe('causalityVerdict', () => {
   // Kuo & Morgan, "Active noise control: a tutorial review", Proc. IEEE 87(6), 1999 (from memory)
   it('should call a geometry causal only when the noise arrives no sooner than the control signal', () => {
     const yes = causalityVerdict(7.1, 6);
-    expect(yes.causal).toBe(true);
-    expectClose(yes.marginMs, 1.1, 1e-9, 'margin');
+    expect(yes.verdict).toBe('broadband');
+    expectClose(yes.marginMs!, 1.1, 1e-9, 'margin');
     const no = causalityVerdict(2, 6);
-    expect(no.causal).toBe(false);
-    expect(no.text).toContain('Tonal and periodic noise can still be cancelled');
-    expect(causalityVerdict(6, 6).causal).toBe(true);
+    expect(no.verdict).toBe('predictable-only');
+    expect(no.sentence).toContain('only predictable noise (tones, hum, periodic sounds) can be cancelled');
+    expect(causalityVerdict(6, 6).verdict).toBe('broadband');
   });
 });
