@@ -122,7 +122,7 @@ export async function simulateCommand(argv: string[]): Promise<number> {
   const loaded = loadScenarioFile(path);
   const sc = loaded.scenario;
   const frames = Math.max(1, Math.round(sc.durationS * sc.sampleRate));
-  if (outDir !== undefined && WavFileWriter.bytesFor(frames, SIGNAL_CHANNELS) - 44 > MAX_WAV_DATA_BYTES) {
+  if (outDir !== undefined && WavFileWriter.bytesFor(frames, SIGNAL_CHANNELS) - WavFileWriter.headerBytesFor(SIGNAL_CHANNELS) > MAX_WAV_DATA_BYTES) {
     const gib = (WavFileWriter.bytesFor(frames, SIGNAL_CHANNELS) / 2 ** 30).toFixed(1);
     throw new InputError(`scenario "${path}": with --out, signals.wav would hold ${gib} GiB (${SIGNAL_CHANNELS} channels of ${sc.durationS} s at ${sc.sampleRate} Hz), more than the 4 GiB a WAV file can hold; shorten durationS or run without --out`);
   }

@@ -89,9 +89,14 @@ export function openWavFile(path: string, what: string, name = path): WavFile {
 }
 
 /** Largest data size a RIFF WAV can describe (its size fields are 32-bit). */
-export const MAX_WAV_DATA_BYTES = 0xffffffff - 36;
+export const MAX_WAV_DATA_BYTES = 0xffffffff - 60;
 
-/** Writes a 32-bit float WAV block by block; the header's sizes are filled in by `close()`. */
+/**
+ * Writes a 32-bit float WAV block by block; the header's sizes are filled in by `close()`. One or two
+ * channels get the plain IEEE-float header (format 3, 16-byte 'fmt '); more get WAVE_FORMAT_EXTENSIBLE with
+ * the IEEE-float sub-format, as the RIFF specification's multichannel addendum asks (Microsoft, "Multiple
+ * channel audio data and WAVE files", 2001), speaker mask 0 (channels not tied to speaker positions).
+ */
 export class WavFileWriter {
   private readonly fd: number;
   private frames = 0;
@@ -99,37 +104,53 @@ export class WavFileWriter {
   private fill = 0;
   private closed = false;
 
+  private readonly headerBytes: number;
+
   constructor(readonly path: string, readonly channels: number, readonly sampleRate: number, bufferFrames = 8192) {
+    this.headerBytes = WavFileWriter.headerBytesFor(channels);
     this.fd = openSync(path, 'w');
     this.buffer = new Float32Array(bufferFrames * channels);
     writeSync(this.fd, this.header(0));
   }
 
+  static headerBytesFor(channels: number): number {
+    return channels > 2 ? 68 : 44;
+  }
+
   /** Bytes a file of `frames` frames and `channels` channels takes (header included). */
   static bytesFor(frames: number, channels: number): number {
-    return 44 + frames * channels * 4;
+    return WavFileWriter.headerBytesFor(channels) + frames * channels * 4;
   }
 
   private header(frames: number): Uint8Array {
-    const h = new Uint8Array(44);
+    const extensible = this.channels > 2;
+    const fmtSize = extensible ? 40 : 16;
+    const h = new Uint8Array(this.headerBytes);
     const v = new DataView(h.buffer);
     const dataBytes = frames * this.channels * 4;
     const put = (at: number, s: string) => {
       for (let i = 0; i < 4; i++) h[at + i] = s.charCodeAt(i);
     };
     put(0, 'RIFF');
-    v.setUint32(4, 36 + dataBytes, true);
+    v.setUint32(4, this.headerBytes - 8 + dataBytes, true);
     put(8, 'WAVE');
     put(12, 'fmt ');
-    v.setUint32(16, 16, true);
-    v.setUint16(20, 3, true); // IEEE float
+    v.setUint32(16, fmtSize, true);
+    v.setUint16(20, extensible ? 0xfffe : 3, true); // IEEE float, or extensible with the float sub-format
     v.setUint16(22, this.channels, true);
     v.setUint32(24, this.sampleRate, true);
     v.setUint32(28, this.sampleRate * this.channels * 4, true);
     v.setUint16(32, this.channels * 4, true);
     v.setUint16(34, 32, true);
-    put(36, 'data');
-    v.setUint32(40, dataBytes, true);
+    if (extensible) {
+      v.setUint16(36, 22, true); // cbSize
+      v.setUint16(38, 32, true); // valid bits per sample
+      v.setUint32(40, 0, true); // channel mask
+      // KSDATAFORMAT_SUBTYPE_IEEE_FLOAT, 00000003-0000-0010-8000-00aa00389b71
+      h.set([0x03, 0x00, 0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xaa, 0x00, 0x38, 0x9b, 0x71], 44);
+    }
+    put(20 + fmtSize, 'data');
+    v.setUint32(24 + fmtSize, dataBytes, true);
     return h;
   }
 
@@ -158,7 +179,7 @@ export class WavFileWriter {
     this.closed = true;
     try {
       this.flush();
-      writeSync(this.fd, this.header(this.frames), 0, 44, 0);
+      writeSync(this.fd, this.header(this.frames), 0, this.headerBytes, 0);
     } finally {
       closeSync(this.fd);
     }
