@@ -32,6 +32,13 @@
  *
  * Off and on levels may come from a window of the recordings (`comparisonStartS`), e.g. the simulator's
  * steady state; the coherence always uses the whole control-off pair.
+ *
+ * Long recordings, bounded memory: the signals may be arrays or `SampleSource`s read on demand (a WAV
+ * file on disk). Welch estimates read one segment at a time, so their memory does not depend on the
+ * length. The delay (step 1) is the one whole-record computation; it uses at most DELAY_WINDOW samples
+ * (2^20: 21.8 s at 48 kHz), taken from the middle of a longer recording, which bounds its memory
+ * (about 150 MB) and time; the `delayWindow` note says when it applies. A delay that changes during
+ * the recording is therefore measured over that window only.
  */
 import { bandAttenuation, type LevelChange } from './band-attenuation.ts';
 import { bandPowers, fractionalOctaveBands, segmentLengthForBands, type BandFraction } from './bands.ts';
@@ -40,9 +47,12 @@ import { estimateDelay, gccPhat } from './delay-estimate.ts';
 import { nextPow2 } from '../dsp/fft.ts';
 import { summarizePathModel, type FrequencyResponse } from './path-model.ts';
 import { applyWeightingToPsd, type FrequencyWeighting } from './weighting.ts';
-import { alignByDelay, coherenceDelayBias, hannWindow, welchCrossSpectra, welchPsd } from './welch.ts';
+import { coherenceDelayBias, hannWindow, isSampleSource, readAll, sliceSource, welchCrossSpectra, welchPsd, type SampleSource } from './welch.ts';
 
-type Signal = Float32Array | Float64Array;
+type Signal = Float32Array | Float64Array | SampleSource;
+
+/** Most samples the reference → error delay is estimated from (the middle of a longer recording). */
+export const DELAY_WINDOW = 2 ** 20;
 
 /** A delay peak must be this many times higher than any correlation value more than 2 ms away (ours). */
 export const UNIQUE_PEAK_RATIO = 1.25;
@@ -146,11 +156,16 @@ export interface RecordingAnalysis {
   notes: Record<string, string>;
 }
 
+/** Largest magnitude accepted in an array input (60 dB above full scale; sources check their own samples). */
+const MAX_SAMPLE = 1000;
+
 function requireSignal(name: string, x: Signal): void {
   if (x.length < MIN_ANALYSIS_SAMPLES) {
     throw new RangeError(`${name} is too short to analyse: ${x.length} samples, need at least ${MIN_ANALYSIS_SAMPLES}`);
   }
+  if (isSampleSource(x)) return;
   for (let i = 0; i < x.length; i++) {
+    if (Math.abs(x[i]!) > MAX_SAMPLE) throw new RangeError(`${name}[${i}] is ${x[i]}, beyond ±${MAX_SAMPLE} (60 dB above full scale)`);
     if (!Number.isFinite(x[i])) throw new RangeError(`${name}[${i}] must be a finite number, got ${x[i]}`);
   }
 }
@@ -181,19 +196,24 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
     notes.length =
       `the reference (${reference.length} samples) and control-off error (${errorOff.length} samples) recordings differ in length; ` +
       `the first ${n} samples (${(n / fs).toFixed(3)} s) of each were used, assuming both start at the same instant`;
-    reference = reference.subarray(0, n) as Signal;
-    errorOff = errorOff.subarray(0, n) as Signal;
+    reference = sliceSource(reference, 0, n);
+    errorOff = sliceSource(errorOff, 0, n);
   }
   const n = reference.length;
 
-  // 1. Delay from reference to error, control off.
-  const maxDelayS = Math.min((options.maxDelayMs ?? 500) / 1000, (n - 1) / fs / 2);
+  // 1. Delay from reference to error, control off, over at most DELAY_WINDOW samples from the middle.
+  const dw = Math.min(n, DELAY_WINDOW);
+  const dStart = Math.floor((n - dw) / 2);
+  if (dw < n) {
+    notes.delayWindow = `the reference → error delay was estimated from the middle ${(dw / fs).toFixed(1)} s of the recordings (from ${(dStart / fs).toFixed(1)} s), the most ancbench uses for it`;
+  }
+  const maxDelayS = Math.min((options.maxDelayMs ?? 500) / 1000, (dw - 1) / fs / 2);
   // Both signals are Hann-windowed over the whole record first. Without it, strong tones leak across many
   // bins of the record-long DFT with one common phase, and the whitened cross spectrum then holds a spurious
   // peak at lag 0 (measured: −0.17 on a 100 Hz hum whose true delay is 7.1 ms, far above the 0.01 threshold).
   // The window confines the leakage to a few bins; a delay D ≪ record length is unaffected.
-  const window = hannWindow(n);
-  const tapered = (x: Signal) => Float64Array.from(x, (v, i) => v * window[i]!);
+  const window = hannWindow(dw);
+  const tapered = (x: Signal) => readAll(x, dStart, dw).map((v, i) => v * window[i]!);
   const taperedRef = tapered(reference);
   const taperedErr = tapered(errorOff);
   const delay = estimateDelay(taperedRef, taperedErr, fs, { maxDelayS, polarity: 'either' });
@@ -202,7 +222,7 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
   // second: their correlation repeats every period, so the largest of many near-equal ripples is no delay.
   // Measured ratios: hum and drifting tones of the demo scenarios 1.02–1.07; broadband ones 4–49; a reverberant
   // room (test/plant/room-paths.test.ts), whose reflections make peaks of their own, 1.48.
-  const threshold = 10 / Math.sqrt(nextPow2(2 * n));
+  const threshold = 10 / Math.sqrt(nextPow2(2 * dw));
   const maxLag = Math.floor(maxDelayS * fs + 1e-9);
   const correlation = gccPhat(taperedRef, taperedErr, { maxLagSamples: maxLag });
   const peakLag = Math.round(delay.delaySamples);
@@ -224,8 +244,8 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
 
   // 2. Coherence on the aligned pair.
   const shift = detected ? Math.round(delay.delaySamples) : 0;
-  const aligned = alignByDelay(Float64Array.from(reference), Float64Array.from(errorOff), shift);
-  const m = aligned.x.length;
+  const m = n - Math.abs(shift);
+  const aligned = { x: sliceSource(reference, shift < 0 ? -shift : 0, m), y: sliceSource(errorOff, shift > 0 ? shift : 0, m) };
   const spread = input.model ? responseSpread(input.model.taps) : 0;
   const wantedLc = Math.max(nextPow2(Math.ceil(fs / 4)), nextPow2(8 * spread));
   let lc = options.coherenceSegmentLength ?? Math.max(64, Math.min(wantedLc, floorPow2(m / (input.model ? 8 : 16))));
@@ -272,7 +292,7 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
         `comparisonStartS (${startS} s) leaves ${Math.max(0, x.length - s)} samples of ${name} (${(x.length / fs).toFixed(2)} s long); at least ${MIN_ANALYSIS_SAMPLES} are needed`,
       );
     }
-    return x.subarray(s) as Signal;
+    return sliceSource(x, s, x.length - s);
   };
   const offPart = from(errorOff, 'errorOff');
   const onPart = input.errorOn ? from(input.errorOn, 'errorOn') : null;
@@ -298,11 +318,21 @@ export function analyzeRecordings(input: RecordingAnalysisInput, options: Record
     };
     if (onPsd) {
       row.onDb = b.onDb;
-      row.attenuationDb = b.attenuationDb;
+      // A band silent with control off or on has no attenuation to report (null in JSON, a note says why).
+      row.attenuationDb = Number.isFinite(b.offDb) && Number.isFinite(b.onDb) ? b.attenuationDb : NaN;
     }
     return row;
   });
-  const overall: LevelChange | { offDb: number } = onPsd ? levels.overall : { offDb: levels.overall.offDb };
+  const overall: LevelChange | { offDb: number } = onPsd
+    ? { ...levels.overall, attenuationDb: Number.isFinite(levels.overall.offDb) && Number.isFinite(levels.overall.onDb) ? levels.overall.attenuationDb : NaN }
+    : { offDb: levels.overall.offDb };
+  const silentOff = bands.filter((b) => !Number.isFinite(b.offDb)).length;
+  const silentOn = onPsd ? bands.filter((b) => b.onDb !== undefined && !Number.isFinite(b.onDb)).length : 0;
+  if (!Number.isFinite(levels.overall.offDb) || (onPsd && !Number.isFinite(levels.overall.onDb))) {
+    notes.silence = `the ${!Number.isFinite(levels.overall.offDb) ? 'control-off' : 'control-on'} error recording is silent (all samples equal) over the analysed window: no level, attenuation or coherence bound can be measured from it`;
+  } else if (silentOff || silentOn) {
+    notes.silence = `${silentOff + silentOn} band level(s) read silent (${silentOff} with control off, ${silentOn} with control on): their attenuation is left out (null)`;
+  }
   if (onPsd && levels.overall.attenuationDb > coherenceBoundDb + 3) {
     notes.boundExceeded =
       `control removed ${levels.overall.attenuationDb.toFixed(1)} dB, more than the ${coherenceBoundDb.toFixed(1)} dB coherence bound: the bound holds for a ` +

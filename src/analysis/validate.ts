@@ -38,7 +38,7 @@ export function requirePowerOfTwo(field: string, value: number, min: number, max
 }
 
 /** Two arrays that must be of equal length (a spectrum and its frequency axis, two recordings). */
-export function requireSameLength(fieldA: string, a: ArrayLike<number>, fieldB: string, b: ArrayLike<number>): void {
+export function requireSameLength(fieldA: string, a: { readonly length: number }, fieldB: string, b: { readonly length: number }): void {
   if (a.length !== b.length) {
     throw new RangeError(`${fieldA} and ${fieldB} must have the same length, got ${a.length} and ${b.length}`);
   }

@@ -25,6 +25,11 @@
  * factor is ρ(D/L)², see `coherenceDelayBias`; at L = 8·D it is 0.81 (a true γ² of 0.99 reads 0.80).
  * Either align the signals first (`estimateDelay` in delay-estimate.ts, then `alignByDelay`) or pick a
  * long segment (`segmentLengthForDelay`).
+ *
+ * Streaming: every estimate here also takes a `SampleSource` (a length and a `read(start, out)` that
+ * copies samples) instead of an array. Segments are read one at a time and their periodograms summed,
+ * so memory holds a few segments whatever the signal's length: a half-hour file on disk is analysed
+ * without being loaded (src/io/wav-file-node.ts gives such sources).
  */
 import { fftPlan, nextPow2 } from '../dsp/fft.ts';
 import {
@@ -35,6 +40,46 @@ import {
   requirePowerOfTwo,
   requireSameLength,
 } from './validate.ts';
+
+/** A signal read piece by piece: its length, and a copy of samples [start, start + out.length) into out. */
+export interface SampleSource {
+  readonly length: number;
+  read(start: number, out: Float64Array): void;
+}
+
+/** A signal given as an array or as a source. */
+export type SignalInput = ArrayLike<number> | SampleSource;
+
+export function isSampleSource(x: SignalInput): x is SampleSource {
+  return typeof (x as SampleSource).read === 'function';
+}
+
+/** The signal as a source (arrays are wrapped, sources returned as they are). */
+export function asSource(x: SignalInput): SampleSource {
+  if (isSampleSource(x)) return x;
+  return {
+    length: x.length,
+    read(start, out) {
+      for (let i = 0; i < out.length; i++) out[i] = x[start + i]!;
+    },
+  };
+}
+
+/** Samples [start, start + length) of a source, as a source. */
+export function sliceSource(x: SignalInput, start: number, length: number): SampleSource {
+  const src = asSource(x);
+  if (!(Number.isInteger(start) && Number.isInteger(length) && start >= 0 && length >= 0 && start + length <= src.length)) {
+    throw new RangeError(`slice [${start}, ${start + length}) must lie inside the signal (0 … ${src.length})`);
+  }
+  return { length, read: (s, out) => src.read(start + s, out) };
+}
+
+/** Samples [start, start + length) of a signal copied into a new Float64Array. */
+export function readAll(x: SignalInput, start = 0, length = x.length - start): Float64Array {
+  const out = new Float64Array(length);
+  asSource(x).read(start, out);
+  return out;
+}
 
 /** Smallest segment length accepted (samples). */
 export const MIN_SEGMENT_LENGTH = 8;
@@ -101,7 +146,7 @@ export function hannWindow(length: number, output?: Float64Array): Float64Array 
 
 /** One-sided PSD of x by Welch's method. `output` (length L/2 + 1) receives the PSD if given. */
 export function welchPsd(
-  x: ArrayLike<number>,
+  x: SignalInput,
   sampleRate: number,
   options: WelchOptions,
   output?: Float64Array,
@@ -117,8 +162,8 @@ export function welchPsd(
 
 /** One-sided cross spectral density P_xy = ⟨conj(X)·Y⟩ (scaled) by Welch's method. */
 export function welchCsd(
-  x: ArrayLike<number>,
-  y: ArrayLike<number>,
+  x: SignalInput,
+  y: SignalInput,
   sampleRate: number,
   options: WelchOptions,
   output?: CsdOutput,
@@ -138,8 +183,8 @@ export function welchCsd(
 
 /** Magnitude-squared coherence γ² = |P_xy|²/(P_xx·P_yy) by Welch's method. */
 export function welchCoherence(
-  x: ArrayLike<number>,
-  y: ArrayLike<number>,
+  x: SignalInput,
+  y: SignalInput,
   sampleRate: number,
   options: WelchOptions,
   output?: Float64Array,
@@ -153,8 +198,8 @@ export function welchCoherence(
  * signal). Use this when several of them are needed, e.g. coherence plus the error PSD for a bound.
  */
 export function welchCrossSpectra(
-  x: ArrayLike<number>,
-  y: ArrayLike<number>,
+  x: SignalInput,
+  y: SignalInput,
   sampleRate: number,
   options: WelchOptions,
 ): CrossSpectraResult {
@@ -226,8 +271,8 @@ export function coherenceDelayBias(delaySamples: number, segmentLength: number):
 }
 
 function crossSpectra(
-  x: ArrayLike<number>,
-  y: ArrayLike<number>,
+  x: SignalInput,
+  y: SignalInput,
   sampleRate: number,
   options: WelchOptions,
   coherenceOutput: Float64Array | undefined,
@@ -275,8 +320,8 @@ function makeLayout(signalLength: number, sampleRate: number, options: WelchOpti
  * the density scaling and the one-sided factor. When y is null only pxx is filled.
  */
 function accumulate(
-  x: ArrayLike<number>,
-  y: ArrayLike<number> | null,
+  xIn: SignalInput,
+  yIn: SignalInput | null,
   layout: WelchLayout,
   sampleRate: number,
   pxx: Float64Array | null,
@@ -287,6 +332,8 @@ function accumulate(
   const L = layout.segmentLength;
   const bins = L / 2 + 1;
   const step = L - layout.overlapSamples;
+  const x = asSource(xIn);
+  const y = yIn === null ? null : asSource(yIn);
   const plan = fftPlan(L);
   const window = hannWindow(L);
   let windowPower = 0;
@@ -326,11 +373,12 @@ function accumulate(
   }
 }
 
-/** Copy x[start … start+L), remove its mean, multiply by the window. */
-function windowedSegment(x: ArrayLike<number>, start: number, window: Float64Array, out: Float64Array): void {
+/** Read x[start … start+L) into out, remove its mean, multiply by the window. */
+function windowedSegment(x: SampleSource, start: number, window: Float64Array, out: Float64Array): void {
   const L = out.length;
+  x.read(start, out);
   let mean = 0;
-  for (let n = 0; n < L; n++) mean += x[start + n]!;
+  for (let n = 0; n < L; n++) mean += out[n]!;
   mean /= L;
-  for (let n = 0; n < L; n++) out[n] = (x[start + n]! - mean) * window[n]!;
+  for (let n = 0; n < L; n++) out[n] = (out[n]! - mean) * window[n]!;
 }

@@ -6,11 +6,19 @@
 import { analyzeRecordings, MIN_ANALYSIS_SAMPLES, type RecordingAnalysis } from '../analysis/recording-analysis.ts';
 import type { BandFraction } from '../analysis/bands.ts';
 import type { FrequencyWeighting } from '../analysis/weighting.ts';
-import { InputError, readBytes, writeOutputs } from '../io/files-node.ts';
-import { parsePathModel, PathModelError, type PathModel } from '../io/path-model-file.ts';
+import { InputError, OutputFolder, readBytes } from '../io/files-node.ts';
+import { modelDelayWarning, parsePathModel, PathModelError, type PathModel } from '../io/path-model-file.ts';
 import { analysisReportHtml, REPORT_FILE } from '../io/report-html-node.ts';
-import { decodeWav, type DecodedWav } from '../io/wav.ts';
-import { safeJson, toolVersion, UsageError, numberFlag, parseCommandArgs } from './common.ts';
+import { openWavFile, type WavFile } from '../io/wav-file-node.ts';
+import type { SampleSource } from '../analysis/welch.ts';
+import { fmtNum, safeJson, toolVersion, UsageError, numberFlag, outFlag, parseCommandArgs } from './common.ts';
+import { progressBar } from './progress.ts';
+
+/** Largest model file read (a 65536-tap model is about 1.5 MB of JSON). */
+const MAX_MODEL_BYTES = 16 * 1024 * 1024;
+
+/** Samples: a model's stated delay may differ from its taps' onset by this much before a warning (one 128-sample block). */
+const MODEL_DELAY_TOLERANCE = 128;
 
 export const ANALYZE_USAGE = `usage: ancbench analyze --ref ref.wav --err err.wav [--control-on err-on.wav] [--model model.json]
                         [--json] [--out DIR] [--ref-channel N] [--err-channel N] [--control-on-channel N]
@@ -20,7 +28,9 @@ optionally the error microphone with control on): one-third-octave band levels a
 the coherence bound (the most any feedforward controller can remove), and whether broadband noise
 can be cancelled in time (reference → error delay by GCC-PHAT against the model's bulk delay).
 
-WAV files: 16/24/32-bit integer or 32/64-bit float, any sample rate (the same for every file).
+WAV files: 8/16/24/32-bit integer PCM or 32/64-bit float (plain RIFF, WAVE_FORMAT_EXTENSIBLE too),
+1000 to 768000 Hz (the same for every file), up to 4 GiB each. Files are read piece by piece, so
+memory does not grow with their length; the delay is estimated from the middle 2^20 samples.
 A multichannel file needs its channel flag, counted from 0; the simulator's signals.wav holds
 reference 0, error with control on 1, controller output 2, error with control off 3,
 reference with control off 4 (use it as --ref when the scenario has a feedback path).
@@ -92,23 +102,27 @@ function parseArgsOrThrow(argv: string[]) {
   } as const, ANALYZE_USAGE, false);
 }
 
-/** Decodes each file once, however many roles it plays. */
+/** Opens each file once, however many roles it plays; files are read on demand and closed by `close()`. */
 class WavCache {
-  private readonly files = new Map<string, DecodedWav>();
-  get(path: string, flag: string): DecodedWav {
+  private readonly files = new Map<string, WavFile>();
+  get(path: string, flag: string): WavFile {
     let w = this.files.get(path);
     if (!w) {
-      w = decodeWav(readBytes(path, `--${flag} file`), path);
+      w = openWavFile(path, `--${flag} file`);
       this.files.set(path, w);
     }
     return w;
   }
+  close(): void {
+    for (const w of this.files.values()) w.close();
+    this.files.clear();
+  }
 }
 
 /** One channel of a file, by the rule: the flag's channel, or 0 for a mono file; a multichannel file needs the flag. */
-function pick(cache: WavCache, flag: string, file: string, channelText: string | undefined): { wav: DecodedWav; channel: number; samples: Float32Array } {
+function pick(cache: WavCache, flag: string, file: string, channelText: string | undefined): { wav: WavFile; channel: number; samples: SampleSource } {
   const wav = cache.get(file, flag);
-  const count = wav.channels.length;
+  const count = wav.channelCount;
   let channel: number;
   if (channelText === undefined) {
     if (count > 1) {
@@ -121,17 +135,19 @@ function pick(cache: WavCache, flag: string, file: string, channelText: string |
       throw new UsageError(`--${flag}-channel must be from 0 to ${count - 1} ("${file}" has ${count} channel${count > 1 ? 's' : ''}, counted from 0), got ${channel}`);
     }
   }
-  return { wav, channel, samples: wav.channels[channel]! };
+  return { wav, channel, samples: wav.channelSource(channel) };
 }
 
-function loadModel(path: string, sampleRate: number): { model: PathModel; note: string | null } {
-  const text = new TextDecoder().decode(readBytes(path, '--model file'));
+function loadModel(path: string, sampleRate: number): { model: PathModel; note: string | null; warning: string | null } {
+  const text = new TextDecoder().decode(readBytes(path, '--model file', MAX_MODEL_BYTES));
   try {
     const model = parsePathModel(text, { expectedSampleRate: sampleRate, resample: true });
     const note = model.resampledFromHz !== undefined && model.sampleRate === sampleRate && model.resampledFromHz !== sampleRate
       ? `the model was measured at ${model.resampledFromHz} Hz and resampled to the recordings' ${sampleRate} Hz`
       : null;
-    return { model, note };
+    const warning = modelDelayWarning(model, MODEL_DELAY_TOLERANCE, `--model "${path}"`);
+    if (warning) process.stderr.write(`ancbench analyze: warning: ${warning}\n`);
+    return { model, note, warning };
   } catch (e) {
     if (e instanceof PathModelError) throw new InputError(`--model "${path}": ${e.message}`);
     throw e;
@@ -155,8 +171,22 @@ export async function analyzeCommand(argv: string[]): Promise<number> {
   const fraction: BandFraction = bandsFlag === 'octave' ? 1 : 3;
   const fromS = numberFlag('from', values.from, 0, 86400);
   if (values['control-on-channel'] !== undefined && !values['control-on']) throw new UsageError('--control-on-channel needs --control-on');
-
+  const outDir = outFlag('out', values.out);
+  // Checked before the work: an unwritable place is said now, not after the analysis.
+  const out = outDir !== undefined ? OutputFolder.prepare(outDir, ['analysis.json', 'bands.csv', REPORT_FILE]) : null;
   const cache = new WavCache();
+  try {
+    return analyzeWith(values, cache, out, fromS, weighting, fraction);
+  } finally {
+    cache.close();
+    out?.abort();
+  }
+}
+
+type AnalyzeValues = ReturnType<typeof parseArgsOrThrow>['values'];
+
+function analyzeWith(values: AnalyzeValues, cache: WavCache, out: OutputFolder | null, fromS: number | undefined, weighting: 'A' | 'C' | 'Z', fraction: BandFraction): number {
+  if (!values.ref || !values.err) throw new UsageError('analyze needs --ref and --err');
   const ref = pick(cache, 'ref', values.ref, values['ref-channel']);
   const err = pick(cache, 'err', values.err, values['err-channel']);
   const on = values['control-on'] ? pick(cache, 'control-on', values['control-on'], values['control-on-channel']) : null;
@@ -183,18 +213,33 @@ export async function analyzeCommand(argv: string[]): Promise<number> {
     const loaded = loadModel(values.model, fs);
     model = loaded.model;
     if (loaded.note) notes.model = loaded.note;
+    if (loaded.warning) notes.modelDelay = loaded.warning;
   }
 
   let analysis: RecordingAnalysis;
+  // Reads are counted to drive the progress bar: the analysis reads the recordings about six times over.
+  const total = 6 * (ref.samples.length + err.samples.length + (on ? on.samples.length : 0));
+  const bar = progressBar('analysing', total);
+  let done = 0;
+  const counted = (src: SampleSource): SampleSource => ({
+    length: src.length,
+    read(start, buf) {
+      src.read(start, buf);
+      done += buf.length;
+      bar.update(Math.min(0.99, done / total));
+    },
+  });
   try {
     analysis = analyzeRecordings(
-      { sampleRate: fs, reference: ref.samples, errorOff: err.samples, errorOn: on?.samples, model: model ? { taps: model.taps, delayMs: model.delayMs } : undefined },
+      { sampleRate: fs, reference: counted(ref.samples), errorOff: counted(err.samples), errorOn: on ? counted(on.samples) : undefined, model: model ? { taps: model.taps, delayMs: model.delayMs } : undefined },
       { weighting, fraction, ...(fromS !== undefined ? { comparisonStartS: fromS } : {}) },
     );
   } catch (e) {
     // Recordings the analysis cannot use (too short, no band below fs/2): an input problem, said plainly.
     if (e instanceof RangeError) throw new InputError(`cannot analyse these recordings: ${e.message}`);
     throw e;
+  } finally {
+    bar.stop();
   }
   const inputs: AnalyzeInputs = {
     reference: { file: values.ref, channel: ref.channel },
@@ -221,7 +266,7 @@ export async function analyzeCommand(argv: string[]): Promise<number> {
     notes: { ...notes, ...analysis.notes },
     tool: { name: 'ancbench', version: toolVersion(), command: 'analyze' },
   };
-  if (values.out) {
+  if (out) {
     const channelOf = (x: { file: string; channel: number }) => `${x.file}, channel ${x.channel}`;
     const html = analysisReportHtml(analysis, {
       inputs: [
@@ -232,11 +277,10 @@ export async function analyzeCommand(argv: string[]): Promise<number> {
       ],
       footer: `ancbench ${summary.tool.version} analyze`,
     });
-    writeOutputs(values.out, [
-      { name: 'analysis.json', data: safeJson(summary) + '\n' },
-      { name: 'bands.csv', data: bandsCsv(analysis) },
-      { name: REPORT_FILE, data: html },
-    ]);
+    out.write('analysis.json', safeJson(summary) + '\n');
+    out.write('bands.csv', bandsCsv(analysis));
+    out.write(REPORT_FILE, html);
+    out.commit();
   }
   if (values.json) process.stdout.write(safeJson(summary, 0) + '\n');
   else {
@@ -254,7 +298,8 @@ export function bandsCsv(a: RecordingAnalysis): string {
   return rows.join('\n') + '\n';
 }
 
-const cell = (v: number | undefined, width: number): string => (v !== undefined && Number.isFinite(v) ? v.toFixed(1) : '—').padStart(width);
+const cell = (v: number | undefined, width: number): string => (v !== undefined && Number.isFinite(v) ? fmtNum(v, 1) : '—').padStart(width);
+const ms = (v: number): string => `${fmtNum(v, 2)} ms`;
 
 export function readableAnalysis(s: AnalyzeSummary): string {
   const c = s.causality;
@@ -265,10 +310,10 @@ export function readableAnalysis(s: AnalyzeSummary): string {
     `error off     ${where(s.inputs.errorOff)}`,
     ...(s.inputs.errorOn ? [`error on      ${where(s.inputs.errorOn)}`] : []),
     `recordings    ${s.sampleRate} Hz, ${s.durationS.toFixed(2)} s`,
-    `delay         reference → error ${c.primaryDelayMs === null ? 'not found' : `${c.primaryDelayMs.toFixed(2)} ms`} (GCC-PHAT, control off)`,
-    `model         ${s.model ? `bulk delay ${s.model.delayMs.toFixed(2)} ms, ${s.model.taps} taps (${s.inputs.model})` : 'none (give --model for the causality check)'}`,
-    `causality     ${c.verdict}${c.marginMs === null ? '' : ` (margin ${c.marginMs.toFixed(2)} ms)`}: ${c.sentence}`,
-    `coherence     bound ${s.coherenceBoundDb.toFixed(1)} dB over ${s.bandRangeHz[0].toFixed(0)}–${s.bandRangeHz[1].toFixed(0)} Hz (${weighting})`,
+    `delay         reference → error ${c.primaryDelayMs === null ? 'not found' : ms(c.primaryDelayMs)} (GCC-PHAT, control off)`,
+    `model         ${s.model ? `bulk delay ${ms(s.model.delayMs)}, ${s.model.taps} taps (${s.inputs.model})` : 'none (give --model for the causality check)'}`,
+    `causality     ${c.verdict}${c.marginMs === null ? '' : ` (margin ${ms(c.marginMs)})`}: ${c.sentence}`,
+    `coherence     bound ${Number.isFinite(s.coherenceBoundDb) ? `${fmtNum(s.coherenceBoundDb, 1)} dB` : 'n/a'} over ${s.bandRangeHz[0].toFixed(0)}–${s.bandRangeHz[1].toFixed(0)} Hz (${weighting})`,
     `level         ${cell(s.overall.offDb, 0).trim()} dBFS off${s.overall.onDb !== undefined ? ` → ${cell(s.overall.onDb, 0).trim()} dBFS on: ${cell(s.overall.attenuationDb, 0).trim()} dB attenuation` : ''} (${weighting})`,
     '',
     `${s.bandFraction === 'octave' ? 'octave' : '1/3 octave'}    off dBFS${s.inputs.errorOn ? '   on dBFS  atten dB' : ''}  bound dB`,

@@ -9,7 +9,7 @@ import { describeEventValues } from '../engine/events.ts';
 import { createOutputCalibration, type OutputCalibration } from '../engine/calibration.ts';
 import { TruePeakMeter } from '../dsp/true-peak.ts';
 import { amplitudeToDb } from '../dsp/units.ts';
-import { InputError, readJson, writeOutputs } from '../io/files-node.ts';
+import { InputError, OutputFolder, readJson } from '../io/files-node.ts';
 import { fixed, renderLimitsReport, type ClosedLoopCap } from '../io/limits-report-html.ts';
 import { buildLimitsReport, type LimitsReportFields } from '../io/limits-report.ts';
 import { readReportAssets, REPORT_FILE } from '../io/report-html-node.ts';
@@ -18,7 +18,7 @@ import { levelCapConfigFromScenario, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, t
 import type { Scenario } from '../plant/scenario.ts';
 import { simulate } from '../plant/simulate.ts';
 import type { WavTable } from '../plant/sources.ts';
-import { safeJson, stamp, UsageError, type Stamp, numberFlag, parseCommandArgs } from './common.ts';
+import { safeJson, stamp, UsageError, type Stamp, numberFlag, outFlag, parseCommandArgs } from './common.ts';
 import { progressBar } from './progress.ts';
 
 export const CHECK_LIMITS_USAGE = `usage: ancbench check-limits <scenario.json> [--json] [--out DIR]
@@ -217,6 +217,9 @@ export async function checkLimitsCommand(argv: string[]): Promise<number> {
     spl = { outputCalibration: cal.calibration, peakCeilingDbSpl: peak };
   }
 
+  // Prepared before the run: an unwritable place is said now; removed again if anything fails (common.ts).
+  const outDir = outFlag('out', values.out);
+  const out = outDir !== undefined ? OutputFolder.prepare(outDir, ['report.json', REPORT_FILE]) : null;
   const bar = progressBar('checking limits');
   let r: LevelCapResult;
   let cl: ClosedLoopCap | null = null;
@@ -238,7 +241,7 @@ export async function checkLimitsCommand(argv: string[]): Promise<number> {
     bar.stop();
   }
   const report = buildReport(path, sc, r, cl, stamp('check-limits', sc.seed, loaded.sha256));
-  if (values.out) {
+  if (out) {
     const html = renderLimitsReport(
       {
         scenario: path,
@@ -251,10 +254,9 @@ export async function checkLimitsCommand(argv: string[]): Promise<number> {
       },
       readReportAssets(),
     );
-    writeOutputs(values.out, [
-      { name: 'report.json', data: safeJson(report) + '\n' },
-      { name: REPORT_FILE, data: html },
-    ]);
+    out.write('report.json', safeJson(report) + '\n');
+    out.write(REPORT_FILE, html);
+    out.commit();
   }
   if (values.json) {
     const { history: _h, ...compact } = report;

@@ -4,13 +4,12 @@
  * ceiling, sensor noise at the microphone), print the quality of the estimate and optionally save it as a
  * path-model file that `controller.modelFile` can name.
  */
-import { existsSync, statSync } from 'node:fs';
-import { basename, dirname } from 'node:path';
-import { writeOutputs } from '../io/files-node.ts';
+import { basename } from 'node:path';
+import { SingleOutputFile } from '../io/files-node.ts';
 import { createPathModel, serializePathModel } from '../io/path-model-file.ts';
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
 import { identifySimulated, type IdentifySimResult } from '../plant/identify-sim.ts';
-import { fmtDb, safeJson, stamp, UsageError, type Stamp, numberFlag, parseCommandArgs } from './common.ts';
+import { fmtDb, fmtNum, outFlag, safeJson, stamp, UsageError, type Stamp, numberFlag, parseCommandArgs } from './common.ts';
 import { progressBar } from './progress.ts';
 
 export const IDENTIFY_USAGE = `usage: ancbench identify <scenario.json> [--method noise|sweep] [--out model.json] [--json]
@@ -77,16 +76,37 @@ export async function identifyCommand(argv: string[]): Promise<number> {
   const durationS = numberFlag('duration', values.duration, 0.01, 3600);
   const taps = numberFlag('taps', values.taps, 1, 65536, true);
   const stepSize = numberFlag('step-size', values['step-size'], 1e-6, 1.999);
-  const out = values.out;
-  if (out !== undefined && (out === '' || out.endsWith('/') || (existsSync(out) && statSync(out).isDirectory()))) {
-    throw new UsageError(`--out must name a file, e.g. model.json, got "${out}"${out.endsWith('/') || out === '' ? '' : ' (a folder)'}`);
-  }
+  const out = outFlag('out', values.out);
 
   const path = positionals[0]!;
   const withDisturbance = Boolean(values['with-disturbance']);
   // controller.modelFile is not read: identify is what writes it, so it may not exist yet.
   const loaded = loadScenarioFile(path, { skipModelFile: true });
   const sc = loaded.scenario;
+  // Checked before the measurement: an unwritable place is said now, not after the run.
+  const target = out !== undefined ? SingleOutputFile.prepare(out) : null;
+  try {
+    return identifyWith(values, path, loaded, sc, method, color, withDisturbance, target, { levelDbfs, durationS, taps, stepSize });
+  } finally {
+    target?.abort();
+  }
+}
+
+type IdentifyValues = ReturnType<typeof parseArgsOrThrow>['values'];
+
+function identifyWith(
+  values: IdentifyValues,
+  path: string,
+  loaded: ReturnType<typeof loadScenarioFile>,
+  sc: ReturnType<typeof loadScenarioFile>['scenario'],
+  method: 'noise' | 'sweep',
+  color: 'white' | 'pink',
+  withDisturbance: boolean,
+  target: SingleOutputFile | null,
+  flags: { levelDbfs: number | undefined; durationS: number | undefined; taps: number | undefined; stepSize: number | undefined },
+): number {
+  const { levelDbfs, durationS, taps, stepSize } = flags;
+  const out = values.out;
   const bar = progressBar(`identifying (${method})`);
   let r: IdentifySimResult;
   try {
@@ -134,7 +154,7 @@ export async function identifyCommand(argv: string[]): Promise<number> {
       probe: r.method === 'noise' ? { levelDbfs: r.probe.levelDbfs, durationS: r.probe.durationS, color: r.probe.color ?? 'white' } : { levelDbfs: r.probe.levelDbfs, durationS: r.probe.durationS },
       notes: `identified by ancbench ${summary.stamp.version} on the simulated plant of "${basename(path)}"${withDisturbance ? ' with its noise sources running' : ''}`,
     });
-    writeOutputs(dirname(out), [{ name: basename(out), data: serializePathModel(model) }]);
+    target!.commit(serializePathModel(model));
   }
   if (values.json) process.stdout.write(safeJson(summary, 0) + '\n');
   else process.stdout.write(readableIdentify(summary) + '\n');
@@ -146,12 +166,12 @@ const ORDINAL: Record<number, string> = { 2: '2nd', 3: '3rd' };
 export function readableIdentify(s: IdentifySummary): string {
   const probe =
     s.method === 'noise'
-      ? `noise probe (${s.probe.color}, ${s.probe.levelDbfs} dBFS RMS, ${s.probe.durationS.toFixed(2)} s), NLMS`
-      : `exponential sweep (${s.sweep!.startHz.toFixed(0)}–${s.sweep!.endHz.toFixed(0)} Hz, ${s.probe.levelDbfs} dBFS, ${s.probe.durationS.toFixed(2)} s)`;
+      ? `noise probe (${s.probe.color}, ${fmtNum(s.probe.levelDbfs, Number.isInteger(s.probe.levelDbfs) ? 0 : 1)} dBFS RMS, ${s.probe.durationS.toFixed(2)} s), NLMS`
+      : `exponential sweep (${s.sweep!.startHz.toFixed(0)}–${s.sweep!.endHz.toFixed(0)} Hz, ${fmtNum(s.probe.levelDbfs, Number.isInteger(s.probe.levelDbfs) ? 0 : 1)} dBFS, ${s.probe.durationS.toFixed(2)} s)`;
   const lines = [
     `scenario      ${s.scenario}${s.name ? `  (${s.name})` : ''}`,
     `method        ${probe}, ${s.modelTaps} taps at ${s.sampleRate} Hz${s.withDisturbance ? ', noise sources running' : ''}`,
-    `bulk delay    ${s.delayMs.toFixed(2)} ms  (true path ${s.trueDelayMs === null ? 'silent' : `${s.trueDelayMs.toFixed(2)} ms`}; first tap within 20 dB of the peak)`,
+    `bulk delay    ${fmtNum(s.delayMs, 2)} ms  (true path ${s.trueDelayMs === null ? 'silent' : `${fmtNum(s.trueDelayMs, 2)} ms`}; first tap within 20 dB of the peak)`,
     `SNR           ${fmtDb(s.snrDb)}  (measurement)`,
     `misalignment  ${fmtDb(s.misalignmentDb)} over ${s.bandHz[0].toFixed(0)}–${s.bandHz[1].toFixed(0)} Hz  (${fmtDb(s.misalignmentTimeDb)} over the whole band)`,
   ];

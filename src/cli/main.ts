@@ -1,11 +1,9 @@
 /**
- * The `ancbench` command line: dispatches sub-commands and turns every expected failure (bad flags,
- * bad files, invalid scenarios) into one clear message on stderr and a non-zero exit status.
+ * The `ancbench` command line: dispatches sub-commands; every failure goes through one error path
+ * (`runCommand` in common.ts): one line on stderr naming the input and the problem, exit status 2 for
+ * bad flags and 1 for anything else, nothing left half-written. `--debug` adds the stack.
  */
-import { ScenarioError } from '../plant/scenario.ts';
-import { InputError } from '../io/files-node.ts';
-import { WavError } from '../io/wav.ts';
-import { toolVersion, UsageError } from './common.ts';
+import { nearestFlag, runCommand, toolVersion } from './common.ts';
 import { simulateCommand } from './simulate-command.ts';
 import { identifyCommand } from './identify-command.ts';
 import { analyzeCommand } from './analyze-command.ts';
@@ -29,7 +27,7 @@ usage: ancbench <command> [options]
 commands:
 ${rows.join('\n')}
 
-ancbench <command> --help shows a command's options.`;
+ancbench <command> --help shows a command's options; --debug adds the stack to an error message.`;
 }
 
 export async function main(argv: string[]): Promise<number> {
@@ -42,22 +40,12 @@ export async function main(argv: string[]): Promise<number> {
     process.stdout.write(toolVersion() + '\n');
     return 0;
   }
-  const c = COMMANDS[cmd];
+  const c = Object.hasOwn(COMMANDS, cmd) ? COMMANDS[cmd] : undefined;
   if (!c) {
-    process.stderr.write(`ancbench: unknown command "${cmd}"\n\n${usage()}\n`);
+    const near = nearestFlag(cmd, Object.keys(COMMANDS));
+    const shown = JSON.stringify(cmd.length > 40 ? cmd.slice(0, 37) + '...' : cmd);
+    process.stderr.write(`ancbench: unknown command ${shown}${near ? `; did you mean ${near}?` : ''} (commands: ${Object.keys(COMMANDS).join(', ')}; ancbench --help)\n`);
     return 2;
   }
-  try {
-    return await c.run(rest);
-  } catch (e) {
-    if (e instanceof UsageError) {
-      process.stderr.write(`ancbench ${cmd}: ${e.message}\n`);
-      return 2;
-    }
-    if (e instanceof ScenarioError || e instanceof InputError || e instanceof WavError) {
-      process.stderr.write(`ancbench ${cmd}: ${e.message}\n`);
-      return 1;
-    }
-    throw e;
-  }
+  return runCommand(cmd, c.run, rest);
 }

@@ -3,15 +3,15 @@
  * control off and on, and report attenuation, convergence, the Wiener bound, peak output, divergence.
  */
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
-import { writeOutputs } from '../io/files-node.ts';
-import { encodeWavFloat32 } from '../io/wav.ts';
+import { InputError, OutputFolder } from '../io/files-node.ts';
+import { MAX_WAV_DATA_BYTES, openWavFile, WavFileWriter } from '../io/wav-file-node.ts';
 import { simulate, type SimulationResult } from '../plant/simulate.ts';
-import { REPORT_FILE, simulationReportFiles } from '../io/report-html-node.ts';
+import { REPORT_FILE, simulationReportHtml } from '../io/report-html-node.ts';
 import { scenarioCeilingDbfs } from '../plant/scenario.ts';
 import { DEFAULT_CEILING_DBFS } from '../engine/engine.ts';
 import type { EngineEvent } from '../engine/events.ts';
 import { describeEventValues } from '../engine/events.ts';
-import { fmtDb, safeJson, stamp, UsageError, type Stamp, parseCommandArgs } from './common.ts';
+import { fmtDb, fmtNum, outFlag, safeJson, stamp, UsageError, type Stamp, parseCommandArgs } from './common.ts';
 import { progressBar } from './progress.ts';
 
 export const SIMULATE_USAGE = `usage: ancbench simulate <scenario.json> [--out DIR] [--json]
@@ -23,7 +23,10 @@ bound for a filter of the same length, peak output level, and whether the contro
   --out DIR   also write DIR/summary.json, DIR/attenuation.csv, DIR/signals.wav
               (float32; channels 0 reference, 1 error with control on, 2 controller
               output, 3 error with control off, 4 reference with control off) and
-              DIR/report.html (self-contained)
+              DIR/report.html (self-contained). Signals are written to disk block by
+              block, so memory does not grow with the duration; a run longer than
+              the 4 GiB a WAV file holds (about 74 min at 48 kHz) is refused
+              before it starts. Nothing is left in DIR if the run fails.
   --json      print one JSON object on stdout instead of the readable summary
   -h, --help  this text`;
 
@@ -92,10 +95,10 @@ export function readableSummary(s: SimulateSummary): string {
     `scenario      ${s.scenario}${s.name ? `  (${s.name})` : ''}`,
     `controller    ${s.algorithm}, ${s.sampleRate} Hz, ${s.durationS.toFixed(2)} s${s.implementation !== s.algorithm ? `; ${s.implementation}` : ''}`,
     `attenuation   ${fmtDb(s.attenuationDb)}  (error mic, last 25 % of the run, unweighted)`,
-    `error level   ${s.errorOffDbfs === null ? 'n/a' : s.errorOffDbfs.toFixed(1)} dBFS off → ${s.errorOnDbfs === null ? 'n/a' : s.errorOnDbfs.toFixed(1)} dBFS on`,
+    `error level   ${s.errorOffDbfs === null ? 'n/a' : fmtNum(s.errorOffDbfs)} dBFS off → ${s.errorOnDbfs === null ? 'n/a' : fmtNum(s.errorOnDbfs)} dBFS on`,
     `convergence   ${s.convergenceS === null ? 'not reached' : `${s.convergenceS.toFixed(2)} s`}`,
     `Wiener bound  ${fmtDb(s.wienerBoundDb)}${s.wienerBoundDb === null ? (s.algorithm === 'tonal' ? '  (narrowband controller: see the per-tone figures)' : '') : s.wienerBoundIsBound ? '' : '  (not a bound: the scenario is not stationary)'}`,
-    `peak output   ${s.peakOutputDbfs === null ? 'n/a' : `${s.peakOutputDbfs.toFixed(1)} dBFS`}  (ceiling ${s.outputCeilingDbfs} dBFS)`,
+    `peak output   ${s.peakOutputDbfs === null ? 'n/a' : `${fmtNum(s.peakOutputDbfs)} dBFS`}  (ceiling ${fmtNum(s.outputCeilingDbfs, Number.isInteger(s.outputCeilingDbfs) ? 0 : 2)} dBFS)`,
     `diverged      ${s.diverged ? `YES: ${s.divergenceReasons.join('; ')}` : 'no'}`,
   ];
   for (const t of s.tones) lines.push(`tone          ${t.hz.toFixed(1)} Hz (source ${t.source}, harmonic ${t.harmonic}): ${fmtDb(t.attenuationDb)}`);
@@ -115,36 +118,68 @@ export async function simulateCommand(argv: string[]): Promise<number> {
   }
   if (positionals.length !== 1) throw new UsageError(`simulate takes exactly one scenario file, got ${positionals.length}\n\n${SIMULATE_USAGE}`);
   const path = positionals[0]!;
+  const outDir = outFlag('out', values.out);
   const loaded = loadScenarioFile(path);
   const sc = loaded.scenario;
-  const bar = progressBar('simulating');
-  let r: SimulationResult;
+  const frames = Math.max(1, Math.round(sc.durationS * sc.sampleRate));
+  if (outDir !== undefined && WavFileWriter.bytesFor(frames, SIGNAL_CHANNELS) - WavFileWriter.headerBytesFor(SIGNAL_CHANNELS) > MAX_WAV_DATA_BYTES) {
+    const gib = (WavFileWriter.bytesFor(frames, SIGNAL_CHANNELS) / 2 ** 30).toFixed(1);
+    throw new InputError(`scenario "${path}": with --out, signals.wav would hold ${gib} GiB (${SIGNAL_CHANNELS} channels of ${sc.durationS} s at ${sc.sampleRate} Hz), more than the 4 GiB a WAV file can hold; shorten durationS or run without --out`);
+  }
+  // The output folder is prepared before the run, so that an unwritable place is said at once.
+  const out = outDir !== undefined ? OutputFolder.prepare(outDir, ['summary.json', 'attenuation.csv', 'signals.wav', REPORT_FILE]) : null;
   try {
-    r = simulate(sc, {
-      wavs: loaded.wavs,
-      record: Boolean(values.out),
-      onProgress: (f) => bar.update(f),
-      ...(loaded.secondaryPathModel ? { secondaryPathModel: loaded.secondaryPathModel } : {}),
-    });
+    const writer = out ? new WavFileWriter(out.pathOf('signals.wav'), SIGNAL_CHANNELS, sc.sampleRate) : null;
+    const bar = progressBar('simulating');
+    let r: SimulationResult;
+    try {
+      r = simulate(sc, {
+        wavs: loaded.wavs,
+        onProgress: (f) => bar.update(f),
+        ...(writer ? { onBlock: (sig, n) => writer.write(sig, n) } : {}),
+        ...(loaded.secondaryPathModel ? { secondaryPathModel: loaded.secondaryPathModel } : {}),
+      });
+      writer?.close();
+    } catch (e) {
+      writer?.discard();
+      throw e;
+    } finally {
+      bar.stop();
+    }
+    const summary = summarize(path, r, stamp('simulate', sc.seed, loaded.sha256), sc.name, scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS));
+    for (const w of loaded.warnings ?? []) {
+      summary.notes[w.key] = w.text;
+      process.stderr.write(`ancbench simulate: warning: ${w.text}\n`);
+    }
+    if (out) {
+      out.write('summary.json', safeJson(summary) + '\n');
+      out.write('attenuation.csv', attenuationCsv(r));
+      // The report's analysis reads the signals back from the written file, piece by piece.
+      const wav = openWavFile(out.pathOf('signals.wav'), 'signals.wav');
+      try {
+        const signals = { reference: wav.channelSource(4), errorOff: wav.channelSource(3), errorOn: wav.channelSource(1) };
+        out.write(REPORT_FILE, simulationReportHtml(summary, r, { trueSecondaryPath: r.trueSecondaryPath, signals }));
+      } finally {
+        wav.close();
+      }
+      out.commit();
+    }
+    printSimulation(values, summary, outDir);
   } finally {
-    bar.stop();
+    out?.abort();
   }
-  const summary = summarize(path, r, stamp('simulate', sc.seed, loaded.sha256), sc.name, scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS));
-  if (values.out) {
-    const sig = r.signals!;
-    writeOutputs(values.out, [
-      { name: 'summary.json', data: safeJson(summary) + '\n' },
-      { name: 'attenuation.csv', data: attenuationCsv(r) },
-      { name: 'signals.wav', data: encodeWavFloat32([sig.reference, sig.errorOn, sig.output, sig.errorOff, sig.referenceOff], r.sampleRate) },
-      ...simulationReportFiles(summary, r, { trueSecondaryPath: r.trueSecondaryPath, referenceOff: sig.referenceOff }),
-    ]);
-  }
+  return 0;
+}
+
+/** Channels of signals.wav: reference, error on, controller output, error off, reference off. */
+const SIGNAL_CHANNELS = 5;
+
+function printSimulation(values: { json?: boolean | undefined }, summary: SimulateSummary, outDir: string | undefined): void {
   if (values.json) process.stdout.write(safeJson(summary, 0) + '\n');
   else {
     process.stdout.write(readableSummary(summary) + '\n');
-    if (values.out) process.stdout.write(`wrote         ${values.out}/summary.json, attenuation.csv, signals.wav, ${REPORT_FILE}\n`);
+    if (outDir !== undefined) process.stdout.write(`wrote         ${outDir}/summary.json, attenuation.csv, signals.wav, ${REPORT_FILE}\n`);
   }
-  return 0;
 }
 
 function parseArgsOrThrow(argv: string[]) {

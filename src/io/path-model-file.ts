@@ -29,6 +29,9 @@ export const PATH_MODEL_VERSION = 1;
 export const PATH_MODEL_METHODS = ['noise', 'sweep', 'simulated', 'imported'] as const;
 export type PathModelMethod = (typeof PATH_MODEL_METHODS)[number];
 
+/** Largest |tap| accepted in a model file. */
+export const MAX_TAP = 1000;
+
 const finite = (what: string) =>
   z.number({ error: `must be ${what}` }).refine(Number.isFinite, `must be ${what} (finite)`);
 const ranged = (min: number, max: number, unit: string) =>
@@ -42,7 +45,7 @@ const pathModelSchema = z.strictObject({
   version: z.literal(PATH_MODEL_VERSION, { error: `must be ${PATH_MODEL_VERSION} (the version this program reads)` }),
   sampleRate: ranged(1000, 768000, 'Hz'),
   taps: z
-    .array(finite('a finite number'), { error: 'must be an array of numbers (the FIR taps)' })
+    .array(finite('a finite number').refine((v) => Math.abs(v) <= MAX_TAP, `must be from −${MAX_TAP} to ${MAX_TAP} (a path gain beyond 60 dB is no loudspeaker path)`), { error: 'must be an array of numbers (the FIR taps)' })
     .min(1, 'must hold at least one tap')
     .max(65536, 'must hold at most 65536 taps'),
   delayMs: ranged(0, 10000, 'ms'),
@@ -215,12 +218,37 @@ export function resamplePathModel(model: PathModel, toHz: number): PathModel {
   const taps = Array.from(resampleImpulseResponse(model.taps, model.sampleRate, toHz));
   const from = model.resampledFromHz ?? model.sampleRate;
   const note = `resampled from ${model.sampleRate} Hz to ${toHz} Hz`;
+  let delayMs = model.delayMs;
+  try {
+    delayMs = (1000 * onsetDelaySamples(taps)) / toHz;
+  } catch {
+    // an all-zero model has no onset: keep the stated delay
+  }
   return parsePathModel({
     ...model,
     sampleRate: toHz,
     taps,
-    delayMs: (1000 * onsetDelaySamples(taps)) / toHz,
+    delayMs,
     resampledFromHz: from,
     notes: model.notes ? `${model.notes}; ${note}` : note,
   });
+}
+
+/**
+ * A warning when a model's stated `delayMs` disagrees with its taps' onset (first tap within 20 dB of the
+ * peak) by more than `toleranceSamples` (one block), naming both; null when they agree or the taps are all
+ * zero (then the warning says so instead).
+ */
+export function modelDelayWarning(model: Pick<PathModel, 'taps' | 'delayMs' | 'sampleRate'>, toleranceSamples: number, what = 'the model'): string | null {
+  let onset: number;
+  try {
+    onset = onsetDelaySamples(model.taps);
+  } catch {
+    return `${what} has all taps zero: it describes no path, so control cannot work with it`;
+  }
+  const onsetMs = (1000 * onset) / model.sampleRate;
+  const statedSamples = (model.delayMs / 1000) * model.sampleRate;
+  if (Math.abs(statedSamples - onset) <= toleranceSamples) return null;
+  return `${what} states a delay of ${model.delayMs.toFixed(2)} ms but its taps start at ${onsetMs.toFixed(2)} ms (first tap within 20 dB of the peak), ` +
+    `${Math.abs(statedSamples - onset).toFixed(0)} samples apart, more than one block (${toleranceSamples} samples): the figures that use the delay (causality) may be wrong`;
 }

@@ -9,6 +9,7 @@ import { dirname, join } from 'node:path';
 import { analyzeRecordings, MIN_ANALYSIS_SAMPLES } from '../analysis/recording-analysis.ts';
 import { onsetDelaySamples } from '../analysis/path-model.ts';
 import type { SimulationResult } from '../plant/simulate.ts';
+import type { SampleSource } from '../analysis/welch.ts';
 import type { OutputFile } from './files-node.ts';
 import { InputError } from './files-node.ts';
 import {
@@ -42,14 +43,22 @@ export function readReportAssets(): ReportAssets {
   }
 }
 
+/** The run's signals the report analyses, in memory or read on demand (e.g. from the written signals.wav). */
+export interface ReportSignals {
+  reference: Float32Array | SampleSource;
+  errorOff: Float32Array | SampleSource;
+  errorOn: Float32Array | SampleSource;
+}
+
 /**
- * The simulation report's HTML. Needs the run's recorded signals (simulate with `record: true`, as
- * `simulate --out` does); the coherence and causality use the control-off reference and error, the
- * spectra and bands the last 25 % of the run (the steady state of the summary's attenuation).
+ * The simulation report's HTML. Needs the run's signals: recorded (simulate with `record: true`) or given
+ * as `signals` (sources read from the written signals.wav, as `simulate --out` does, so memory stays flat);
+ * the coherence and causality use the control-off reference and error, the spectra and bands the last
+ * 25 % of the run (the steady state of the summary's attenuation).
  */
-export function simulationReportHtml(summary: SimulationReportSummary, result: SimulationResult, options: SimulationReportOptions = {}): string {
-  const sig = result.signals;
-  if (!sig) throw new RangeError('the simulation report needs the recorded signals: run simulate with record: true');
+export function simulationReportHtml(summary: SimulationReportSummary, result: SimulationResult, options: SimulationReportOptions & { signals?: ReportSignals } = {}): string {
+  const sig: ReportSignals | undefined = options.signals ?? result.signals;
+  if (!sig) throw new RangeError('the simulation report needs the run\'s signals: run simulate with record: true, or pass them as signals');
   const model = result.secondaryPathModel;
   let delayMs: number | null = null;
   try {
@@ -64,7 +73,7 @@ export function simulationReportHtml(summary: SimulationReportSummary, result: S
   const analysis = analyzeRecordings(
     {
       sampleRate: result.sampleRate,
-      reference: options.referenceOff ?? sig.reference,
+      reference: options.signals ? sig.reference : (options.referenceOff ?? sig.reference),
       errorOff: sig.errorOff,
       errorOn: sig.errorOn,
       ...(delayMs !== null ? { model: { taps: model, delayMs } } : {}),
@@ -76,7 +85,7 @@ export function simulationReportHtml(summary: SimulationReportSummary, result: S
 }
 
 /** The report as an output file, to add to the list `simulate --out` passes to writeOutputs. */
-export function simulationReportFiles(summary: SimulationReportSummary, result: SimulationResult, options: SimulationReportOptions = {}): OutputFile[] {
+export function simulationReportFiles(summary: SimulationReportSummary, result: SimulationResult, options: SimulationReportOptions & { signals?: ReportSignals } = {}): OutputFile[] {
   return [{ name: REPORT_FILE, data: simulationReportHtml(summary, result, options) }];
 }
 

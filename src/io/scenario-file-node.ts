@@ -7,8 +7,16 @@ import { createHash } from 'node:crypto';
 import { resolve } from 'node:path';
 import { parseScenario, type Scenario } from '../plant/scenario.ts';
 import { baseDirOf, InputError, readBytes } from './files-node.ts';
-import { decodeWav, WavError } from './wav.ts';
-import { parsePathModel, PathModelError } from './path-model-file.ts';
+import { WavError } from './wav.ts';
+import { openWavFile } from './wav-file-node.ts';
+import { modelDelayWarning, parsePathModel, PathModelError } from './path-model-file.ts';
+
+/** Largest scenario file read (a 2^20-tap FIR written out is about 25 MB). */
+export const MAX_SCENARIO_BYTES = 64 * 1024 * 1024;
+/** Largest model file read (a 65536-tap model is about 1.5 MB). */
+export const MAX_MODEL_FILE_BYTES = 16 * 1024 * 1024;
+/** Most samples a WAV source may hold (it is kept in memory as 32-bit floats: 256 MiB). */
+export const MAX_WAV_SOURCE_SAMPLES = 2 ** 26;
 import { imperfectModel } from '../plant/secondary-model.ts';
 
 export interface LoadedScenario {
@@ -21,6 +29,8 @@ export interface LoadedScenario {
   secondaryPathModel?: Float32Array;
   /** With `skipModelFile`: the `controller.modelFile` the file names, left out of `scenario` and not read. */
   skippedModelFile?: string;
+  /** Remarks about the inputs that do not stop the run (also printed as notes), keyed by topic. */
+  warnings?: { key: string; text: string }[];
 }
 
 export interface LoadScenarioOptions {
@@ -40,7 +50,7 @@ function withoutModelFile(json: unknown): { json: unknown; modelFile?: string } 
 }
 
 export function loadScenarioFile(path: string, options: LoadScenarioOptions = {}): LoadedScenario {
-  const bytes = readBytes(path, 'scenario file');
+  const bytes = readBytes(path, 'scenario file', MAX_SCENARIO_BYTES);
   let json: unknown;
   try {
     json = JSON.parse(new TextDecoder().decode(bytes));
@@ -57,29 +67,38 @@ export function loadScenarioFile(path: string, options: LoadScenarioOptions = {}
     if (s.kind !== 'wav') return;
     const file = resolve(base, s.file);
     try {
-      const w = decodeWav(readBytes(file, `sources[${i}].file`), `sources[${i}].file "${s.file}"`);
-      if (w.sampleRate !== scenario.sampleRate) {
-        problems.push(`sources[${i}].file: "${s.file}" has a sample rate of ${w.sampleRate} Hz but the scenario runs at ${scenario.sampleRate} Hz; resample the file or change sampleRate`);
-        return;
+      // Only the channel used is decoded, read piece by piece; its length is capped since it is kept in memory.
+      const w = openWavFile(file, `sources[${i}].file`, `sources[${i}].file "${s.file}"`);
+      try {
+        if (w.sampleRate !== scenario.sampleRate) {
+          problems.push(`sources[${i}].file: "${s.file}" has a sample rate of ${w.sampleRate} Hz but the scenario runs at ${scenario.sampleRate} Hz; resample the file or change sampleRate`);
+          return;
+        }
+        const ch = s.channel ?? 0;
+        if (ch >= w.channelCount) {
+          problems.push(`sources[${i}].channel: "${s.file}" has ${w.channelCount} channel(s), counted from 0; got ${ch}`);
+          return;
+        }
+        const limit = `the ${MAX_WAV_SOURCE_SAMPLES} a source may hold (${(MAX_WAV_SOURCE_SAMPLES / w.sampleRate / 60).toFixed(0)} min at ${w.sampleRate} Hz); cut it, and use "loop" if the run is longer`;
+        wavs.set(s.file, w.loadChannel(ch, MAX_WAV_SOURCE_SAMPLES, limit));
+      } finally {
+        w.close();
       }
-      const ch = s.channel ?? 0;
-      if (ch >= w.channels.length) {
-        problems.push(`sources[${i}].channel: "${s.file}" has ${w.channels.length} channel(s), counted from 0; got ${ch}`);
-        return;
-      }
-      wavs.set(s.file, w.channels[ch]!);
     } catch (e) {
       if (e instanceof WavError || e instanceof InputError) problems.push(e.message);
       else throw e;
     }
   });
   let secondaryPathModel: Float32Array | undefined;
+  const warnings: { key: string; text: string }[] = [];
   const modelFile = scenario.controller.modelFile;
   if (modelFile) {
     const file = resolve(base, modelFile);
     try {
-      const text = new TextDecoder().decode(readBytes(file, 'controller.modelFile'));
+      const text = new TextDecoder().decode(readBytes(file, 'controller.modelFile', MAX_MODEL_FILE_BYTES));
       const model = parsePathModel(text, { expectedSampleRate: scenario.sampleRate });
+      const warning = modelDelayWarning(model, scenario.blockSize, `controller.modelFile "${modelFile}"`);
+      if (warning) warnings.push({ key: 'modelDelay', text: warning });
       secondaryPathModel = imperfectModel(model.taps, scenario.controller);
     } catch (e) {
       if (e instanceof PathModelError) problems.push(`controller.modelFile "${modelFile}": ${e.message}`);
@@ -96,5 +115,6 @@ export function loadScenarioFile(path: string, options: LoadScenarioOptions = {}
     sha256,
     ...(secondaryPathModel ? { secondaryPathModel } : {}),
     ...(skippedModelFile !== undefined ? { skippedModelFile } : {}),
+    ...(warnings.length ? { warnings } : {}),
   };
 }

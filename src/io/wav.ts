@@ -25,7 +25,7 @@ export class WavError extends Error {
   }
 }
 
-interface RiffLayout {
+export interface RiffLayout {
   /** 1 = integer PCM, 3 = IEEE float (after resolving WAVE_FORMAT_EXTENSIBLE). */
   format: 1 | 3;
   channels: number;
@@ -36,41 +36,61 @@ interface RiffLayout {
   dataSize: number;
 }
 
+/** Reads `length` bytes at `offset` (fewer at the end of the file). */
+export type ByteReader = (offset: number, length: number) => Uint8Array;
+
+/** Chunks walked before giving up on a file (a damaged header could otherwise send the walk on for ever). */
+const MAX_CHUNKS = 4096;
+
+/**
+ * Largest magnitude accepted for a float sample: 1000 (60 dB above full scale). Larger values are no
+ * recording of sound (a damaged or foreign file), and their squares would overflow the analysis.
+ */
+export const MAX_FLOAT_SAMPLE = 1000;
+
+const ascii = (b: Uint8Array, at: number): string => String.fromCharCode(b[at]!, b[at + 1]!, b[at + 2]!, b[at + 3]!);
+
 /**
  * Walk the RIFF chunks (Microsoft/IBM, "Multimedia Programming Interface and Data Specifications
- * 1.0", 1991) and read the 'fmt ' chunk. Refuses what would otherwise be decoded silently wrong: a
- * truncated data chunk, one that ends inside a sample frame, compressed format codes; resolves
+ * 1.0", 1991) and read the 'fmt ' chunk, reading only the chunk headers (so a long file is never read
+ * whole here). Refuses what would otherwise be decoded silently wrong: a data chunk that claims more bytes
+ * than the file holds, one that ends inside a sample frame, compressed format codes; resolves
  * WAVE_FORMAT_EXTENSIBLE to its sub-format (integer or float), and never counts the pad byte that
  * follows an odd-length chunk as audio.
  */
-function readLayout(bytes: Uint8Array, name: string): RiffLayout {
-  if (bytes.length === 0) throw new WavError(`${name}: the file is empty`);
-  if (bytes.length < 12) throw new WavError(`${name}: too short to be a WAV file (${bytes.length} bytes)`);
-  const tag = String.fromCharCode(bytes[0]!, bytes[1]!, bytes[2]!, bytes[3]!);
-  const wave = String.fromCharCode(bytes[8]!, bytes[9]!, bytes[10]!, bytes[11]!);
+export function readLayoutFrom(read: ByteReader, fileSize: number, name: string): RiffLayout {
+  if (fileSize === 0) throw new WavError(`${name}: the file is empty`);
+  if (fileSize < 12) throw new WavError(`${name}: too short to be a WAV file (${fileSize} bytes)`);
+  const head = read(0, 12);
+  const tag = ascii(head, 0);
+  const wave = ascii(head, 8);
   if (tag !== 'RIFF' || wave !== 'WAVE') {
     if ((tag === 'RIFX' || tag === 'RF64') && wave === 'WAVE') throw new WavError(`${name}: ${tag} (big-endian or 64-bit) WAV files are not supported; convert to a plain RIFF WAV`);
-    throw new WavError(`${name}: not a WAV file (it starts with "${tag}", expected "RIFF…WAVE")`);
+    throw new WavError(`${name}: not a WAV file (it starts with ${JSON.stringify(tag.replace(/[^\x20-\x7e]/g, '?'))}, expected "RIFF…WAVE")`);
   }
-  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   let p = 12;
   let fmt: Omit<RiffLayout, 'dataOffset' | 'dataSize'> | null = null;
   let dataOffset = -1;
   let dataSize = 0;
-  while (p + 8 <= bytes.length) {
-    const id = String.fromCharCode(bytes[p]!, bytes[p + 1]!, bytes[p + 2]!, bytes[p + 3]!);
-    const size = view.getUint32(p + 4, true);
+  let chunks = 0;
+  while (p + 8 <= fileSize && (fmt === null || dataOffset < 0)) {
+    if (++chunks > MAX_CHUNKS) throw new WavError(`${name}: more than ${MAX_CHUNKS} chunks before the audio: the header is damaged`);
+    const h = read(p, 8);
+    const id = ascii(h, 0);
+    const size = new DataView(h.buffer, h.byteOffset, 8).getUint32(4, true);
     const body = p + 8;
     if (id === 'fmt ') {
-      if (size < 16 || body + size > bytes.length) throw new WavError(`${name}: the "fmt " chunk is damaged (${size} bytes)`);
-      let code = view.getUint16(body, true);
-      const channels = view.getUint16(body + 2, true);
-      const sampleRate = view.getUint32(body + 4, true);
-      const blockAlign = view.getUint16(body + 12, true);
-      const bits = view.getUint16(body + 14, true);
+      if (size < 16 || body + size > fileSize) throw new WavError(`${name}: the "fmt " chunk is damaged (${size} bytes): ${size < 16 ? 'too short' : `the file ends ${Math.max(0, fileSize - body)} bytes into it`}`);
+      const f = read(body, Math.min(size, 40));
+      const view = new DataView(f.buffer, f.byteOffset, f.byteLength);
+      let code = view.getUint16(0, true);
+      const channels = view.getUint16(2, true);
+      const sampleRate = view.getUint32(4, true);
+      const blockAlign = view.getUint16(12, true);
+      const bits = view.getUint16(14, true);
       if (code === 0xfffe) {
         if (size < 40) throw new WavError(`${name}: WAVE_FORMAT_EXTENSIBLE header too short (${size} bytes)`);
-        code = view.getUint16(body + 24, true); // first two bytes of the sub-format GUID
+        code = view.getUint16(24, true); // first two bytes of the sub-format GUID
       }
       if (code !== 1 && code !== 3) {
         throw new WavError(`${name}: format code 0x${code.toString(16)} is compressed or not supported; ancbench reads integer PCM (8/16/24/32-bit) and IEEE float (32/64-bit)`);
@@ -81,8 +101,8 @@ function readLayout(bytes: Uint8Array, name: string): RiffLayout {
       if (blockAlign !== (channels * bits) / 8) throw new WavError(`${name}: block align ${blockAlign} does not match ${channels} channel(s) of ${bits} bits`);
       fmt = { format: code as 1 | 3, channels, sampleRate, bits, blockAlign };
     } else if (id === 'data') {
-      if (body + size > bytes.length) {
-        throw new WavError(`${name}: truncated: the data chunk declares ${size} bytes but only ${bytes.length - body} are present`);
+      if (body + size > fileSize) {
+        throw new WavError(`${name}: truncated: the data chunk declares ${size} bytes but only ${fileSize - body} are present`);
       }
       dataOffset = body;
       dataSize = size;
@@ -94,7 +114,37 @@ function readLayout(bytes: Uint8Array, name: string): RiffLayout {
   if (dataSize % fmt.blockAlign !== 0) {
     throw new WavError(`${name}: the data chunk (${dataSize} bytes) ends inside a sample frame of ${fmt.blockAlign} bytes: the file is damaged`);
   }
+  if (!(fmt.sampleRate >= 1000 && fmt.sampleRate <= 768000)) throw new WavError(`${name}: implausible sample rate ${fmt.sampleRate} Hz (ancbench reads 1000 to 768000 Hz)`);
+  if (dataSize === 0) throw new WavError(`${name}: the file holds no samples`);
   return { ...fmt, dataOffset, dataSize };
+}
+
+/**
+ * Decode one channel of `frames` sample frames from `bytes` (which start at a frame boundary) into
+ * `out` (from `outAt`). Throws a WavError naming the file, channel and sample for a non-finite or
+ * absurdly large float sample; `firstFrame` is the index of the first frame, for that message.
+ */
+export function decodeChannel(L: RiffLayout, bytes: Uint8Array, frames: number, channel: number, out: Float32Array | Float64Array, outAt: number, firstFrame: number, name: string): void {
+  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const bps = L.bits / 8;
+  for (let f = 0; f < frames; f++) {
+    const at = f * L.blockAlign + channel * bps;
+    let v: number;
+    if (L.format === 3) {
+      v = L.bits === 32 ? view.getFloat32(at, true) : view.getFloat64(at, true);
+      if (!(Math.abs(v) <= MAX_FLOAT_SAMPLE)) {
+        throw new WavError(
+          Number.isFinite(v)
+            ? `${name}: channel ${channel} sample ${firstFrame + f} is ${v}, beyond ±${MAX_FLOAT_SAMPLE} (60 dB above full scale): not a recording ancbench can use`
+            : `${name}: channel ${channel} sample ${firstFrame + f} is not a finite number (${v})`,
+        );
+      }
+    } else if (L.bits === 8) v = (view.getUint8(at) - 128) / 128;
+    else if (L.bits === 16) v = view.getInt16(at, true) / 32768;
+    else if (L.bits === 24) v = (view.getUint8(at) | (view.getUint8(at + 1) << 8) | (view.getInt8(at + 2) << 16)) / 8388608;
+    else v = view.getInt32(at, true) / 2147483648;
+    out[outAt + f] = v;
+  }
 }
 
 /**
@@ -103,28 +153,14 @@ function readLayout(bytes: Uint8Array, name: string): RiffLayout {
  * integers and counts an odd chunk's pad byte as a sample).
  */
 export function decodeWav(bytes: Uint8Array, name = 'WAV'): DecodedWav {
-  const L = readLayout(bytes, name);
-  if (!(L.sampleRate >= 1000 && L.sampleRate <= 768000)) throw new WavError(`${name}: implausible sample rate ${L.sampleRate} Hz`);
+  const L = readLayoutFrom((o, l) => bytes.subarray(o, o + l), bytes.length, name);
   const frames = L.dataSize / L.blockAlign;
-  if (frames === 0) throw new WavError(`${name}: the file holds no samples`);
-  const view = new DataView(bytes.buffer, bytes.byteOffset + L.dataOffset, L.dataSize);
-  const channels = Array.from({ length: L.channels }, () => new Float32Array(frames));
-  const bps = L.bits / 8;
-  for (let f = 0; f < frames; f++) {
-    for (let c = 0; c < L.channels; c++) {
-      const at = f * L.blockAlign + c * bps;
-      let v: number;
-      if (L.format === 3) v = L.bits === 32 ? view.getFloat32(at, true) : view.getFloat64(at, true);
-      else if (L.bits === 8) v = (view.getUint8(at) - 128) / 128;
-      else if (L.bits === 16) v = view.getInt16(at, true) / 32768;
-      else if (L.bits === 24) {
-        const u = view.getUint8(at) | (view.getUint8(at + 1) << 8) | (view.getInt8(at + 2) << 16);
-        v = u / 8388608;
-      } else v = view.getInt32(at, true) / 2147483648;
-      if (!Number.isFinite(v)) throw new WavError(`${name}: channel ${c} sample ${f} is not a finite number (${v})`);
-      channels[c]![f] = v;
-    }
-  }
+  const data = bytes.subarray(L.dataOffset, L.dataOffset + L.dataSize);
+  const channels = Array.from({ length: L.channels }, (_, c) => {
+    const out = new Float32Array(frames);
+    decodeChannel(L, data, frames, c, out, 0, 0, name);
+    return out;
+  });
   const bitDepth = L.format === 3 ? `${L.bits}f` : String(L.bits);
   return { sampleRate: L.sampleRate, channels, bitDepth };
 }

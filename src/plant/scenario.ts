@@ -12,10 +12,10 @@ import {
   ALGORITHMS, FXLMS_SETTINGS, LIMITER_SETTINGS, SIMULATION_ONLY_FIELDS, TONAL_SETTINGS,
   describeRange, fitsSetting, type SettingsObject, type SettingsTable,
 } from '../engine/settings.ts';
+import { EVENT_ACTIONS } from '../engine/events.ts';
 
 export const SCENARIO_SCHEMA_VERSION = 1;
 
-const finite = () => z.number({ error: 'must be a number' }).refine(Number.isFinite, 'must be finite');
 const num = (min: number, max: number, what = 'number') =>
   z.number({ error: `must be a ${what} from ${min} to ${max}` }).min(min, `must be from ${min} to ${max}`).max(max, `must be from ${min} to ${max}`);
 const int = (min: number, max: number) =>
@@ -25,8 +25,8 @@ const toneSource = z.strictObject({
   kind: z.literal('tone'),
   hz: num(1, 96000, 'frequency in Hz'),
   amplitude: num(0, 1e3),
-  driftHzPerS: finite().optional(),
-  phaseDeg: finite().optional(),
+  driftHzPerS: num(-1000, 1000, 'drift in Hz/s').optional(),
+  phaseDeg: num(-360, 360, 'phase in degrees').optional(),
   /** Frequency jumps (phase-continuous): at `atS` seconds the tone moves to `hz` (drift continues from there). */
   steps: z.array(z.strictObject({ atS: num(0, 86400, 'time in seconds'), hz: num(1, 96000, 'frequency in Hz') }), { error: 'must be an array of {atS, hz}' }).max(1000).optional(),
 });
@@ -34,7 +34,7 @@ const harmonicsSource = z.strictObject({
   kind: z.literal('harmonics'),
   fundamentalHz: num(1, 96000, 'frequency in Hz'),
   amplitudes: z.array(num(0, 1e3), { error: 'must be an array of linear peak amplitudes' }).min(1, 'needs at least one amplitude').max(64, 'at most 64 harmonics'),
-  driftHzPerS: finite().optional(),
+  driftHzPerS: num(-1000, 1000, 'drift in Hz/s').optional(),
 });
 const noiseSource = z.strictObject({
   kind: z.literal('noise'),
@@ -54,11 +54,46 @@ export const sourceSchema = z.discriminatedUnion('kind', [toneSource, harmonicsS
   error: (iss) => (iss.code === 'invalid_union' ? 'kind must be one of "tone", "harmonics", "noise", "wav"' : undefined),
 });
 
+/** Largest |gain| and |FIR tap| of a path (linear): 60 dB, beyond any acoustic path. */
+export const MAX_PATH_GAIN = 1000;
+
 export const pathSchema = z.strictObject({
   delayMs: num(0, 10000, 'delay in ms (≥ 0)'),
-  gain: finite().optional(),
-  fir: z.array(finite(), { error: 'must be an array of FIR taps' }).min(1, 'needs at least one tap').max(1 << 20).optional(),
+  gain: num(-MAX_PATH_GAIN, MAX_PATH_GAIN, 'linear gain').optional(),
+  fir: z.array(num(-MAX_PATH_GAIN, MAX_PATH_GAIN, 'FIR tap'), { error: 'must be an array of FIR taps' }).min(1, 'needs at least one tap').max(1 << 20).optional(),
 });
+
+const boolean = () => z.boolean({ error: 'must be true or false' });
+const guardAction = z.enum(EVENT_ACTIONS, { error: `must be one of ${EVENT_ACTIONS.map((a) => `"${a}"`).join(', ')}` });
+const positiveFinite = () => z.number({ error: 'must be a number > 0' }).positive('must be > 0').refine(Number.isFinite, 'must be finite');
+
+/**
+ * The divergence guard's settings (src/engine/guard.ts, GuardConfig), with the same ranges; unknown keys are
+ * refused at every level, like the rest of the scenario.
+ */
+export const guardSchema = z.strictObject({
+  windowMs: num(5, 100, 'time in ms').optional(),
+  sanitizeInputs: boolean().optional(),
+  nonFinite: z.strictObject({ enabled: boolean().optional(), inputAction: guardAction.optional(), outputAction: guardAction.optional() }).optional(),
+  weights: z.strictObject({
+    enabled: boolean().optional(),
+    action: guardAction.optional(),
+    maxNormSq: positiveFinite().optional(),
+    growthFactor: num(0, 1e6).refine((g) => g === 0 || g > 1, 'must be 0 (off) or above 1').optional(),
+    growthWindowMs: num(50, 60000, 'time in ms').optional(),
+    growthFloorNormSq: positiveFinite().optional(),
+  }).optional(),
+  errorRise: z.strictObject({ enabled: boolean().optional(), action: guardAction.optional(), riseDb: num(0.5, 60, 'level in dB').optional(), holdMs: num(5, 60000, 'time in ms').optional() }).optional(),
+  outputAtCeiling: z.strictObject({ enabled: boolean().optional(), action: guardAction.optional(), gainReductionDb: num(0.1, 60, 'level in dB').optional(), holdMs: num(1, 60000, 'time in ms').optional() }).optional(),
+  inputClipping: z.strictObject({ enabled: boolean().optional(), action: guardAction.optional(), level: num(0.5, 1).optional(), consecutive: int(1, 1000).optional() }).optional(),
+  deadMicrophone: z.strictObject({ enabled: boolean().optional(), action: guardAction.optional(), holdMs: num(1, 60000, 'time in ms').optional() }).optional(),
+  limiterEngaged: z.strictObject({ enabled: boolean().optional(), gainReductionDb: num(0.01, 60, 'level in dB').optional(), rearmMs: num(0, 60000, 'time in ms').optional() }).optional(),
+  resume: z.strictObject({
+    mode: z.enum(['auto', 'user'], { error: 'must be "auto" or "user"' }).optional(),
+    holdOffMs: num(0, 600000, 'time in ms').optional(),
+    maxAutoResumes: int(0, 1000).optional(),
+  }).optional(),
+}, { error: 'must be false (no guard) or an object of guard settings' });
 
 const explicitPaths = z.strictObject({
   reference: pathSchema,
@@ -135,7 +170,7 @@ export const scenarioSchema = z.strictObject({
   outputCeilingDbfs: num(-120, 0, 'level in dBFS (≤ 0)').optional(),
   limiter: schemaFromTable(LIMITER_SETTINGS).optional(),
   highPassHz: num(0, 1000, 'frequency in Hz (0 = off)').optional(),
-  guard: z.union([z.literal(false), z.record(z.string(), z.unknown())], { error: 'must be false (no guard) or an object of guard settings' }).optional(),
+  guard: z.union([z.literal(false), guardSchema], { error: 'must be false (no guard) or an object of guard settings' }).optional(),
   controlStartS: num(0, 86400).optional(),
   /** Faults injected during the run, to exercise the guard (see README). */
   faults: z.array(z.discriminatedUnion('kind', [
@@ -173,10 +208,41 @@ function fieldPath(path: readonly PropertyKey[]): string {
   return s || '(top level)';
 }
 
-function show(v: unknown): string {
+/** Longest value shown in a message. */
+const SHOW_CHARS = 60;
+
+/**
+ * A value for a message, at most SHOW_CHARS characters: JSON-like, but walked to a fixed depth and length
+ * only (JSON.stringify recurses through the whole value, so a deeply nested one would overflow the stack).
+ */
+export function show(v: unknown): string {
   if (v === undefined) return 'nothing';
-  const j = JSON.stringify(v);
-  return j === undefined ? String(v) : j.length > 60 ? j.slice(0, 57) + '...' : j;
+  let out = '';
+  const room = SHOW_CHARS + 3;
+  const put = (t: string): boolean => {
+    out += t;
+    return out.length < room;
+  };
+  const walk = (x: unknown, depth: number): boolean => {
+    if (x === null || typeof x !== 'object') {
+      if (typeof x === 'string') return put(JSON.stringify(x.length > SHOW_CHARS ? x.slice(0, SHOW_CHARS) : x));
+      if (typeof x === 'number') return put(Number.isFinite(x) ? JSON.stringify(x) : String(x));
+      return put(String(x));
+    }
+    const isArray = Array.isArray(x);
+    if (depth >= 4) return put(isArray ? '[…]' : '{…}');
+    if (!put(isArray ? '[' : '{')) return false;
+    const keys = isArray ? null : Object.keys(x);
+    const count = isArray ? (x as unknown[]).length : keys!.length;
+    for (let i = 0; i < count; i++) {
+      if (i > 0 && !put(',')) return false;
+      if (keys && !put(`${JSON.stringify(keys[i]!.slice(0, SHOW_CHARS))}:`)) return false;
+      if (!walk(isArray ? (x as unknown[])[i] : (x as Record<string, unknown>)[keys ? keys[i]! : i], depth + 1)) return false;
+    }
+    return put(isArray ? ']' : '}');
+  };
+  walk(v, 0);
+  return out.length > SHOW_CHARS ? out.slice(0, SHOW_CHARS - 3) + '...' : out;
 }
 
 /**
@@ -258,6 +324,11 @@ export function parseScenario(value: unknown): Scenario {
   }
   if (s.limiter?.ceilingDbfs !== undefined && s.outputCeilingDbfs !== undefined && s.limiter.ceilingDbfs !== s.outputCeilingDbfs) {
     problems.push(`limiter.ceilingDbfs: ${s.limiter.ceilingDbfs} differs from outputCeilingDbfs ${s.outputCeilingDbfs}; give one of them`);
+  }
+  if (s.guard) {
+    const windowMs = s.guard.windowMs ?? 20;
+    const hold = s.guard.errorRise?.holdMs;
+    if (hold !== undefined && hold < windowMs) problems.push(`guard.errorRise.holdMs: must be at least guard.windowMs (${windowMs} ms), got ${hold}`);
   }
   if (s.controlStartS !== undefined && s.controlStartS >= s.durationS) {
     problems.push(`controlStartS: must be before the end of the run (${s.durationS} s), got ${s.controlStartS}`);

@@ -35,6 +35,12 @@ export interface SimulateOptions {
   secondaryPathModel?: Float32Array;
   /** Keep the four signals (reference, error on, output, error off) for writing. Default false. */
   record?: boolean;
+  /**
+   * Called after every block with that block's signals (valid only during the call), in the order of
+   * `SimulationSignals`: reference, error on, output, error off, reference off. For writing long runs to
+   * disk block by block without `record`.
+   */
+  onBlock?: (signals: readonly [Float32Array, Float32Array, Float32Array, Float32Array, Float32Array], n: number) => void;
   /** Called now and then with the fraction done (0 … 1). */
   onProgress?: (fraction: number) => void;
   /** Seconds of the control-off run used for the Wiener bound (default 30). */
@@ -384,6 +390,8 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   let lastProgress = -1;
   const events: EngineEvent[] = [];
   const { ref, errOn, errOff, out, refNoFeedback } = loop;
+  const onBlock = opts.onBlock;
+  const blockSignals = [ref, errOn, out, errOff, refNoFeedback] as const;
   // tonal components, demodulated over the last 25 % of the run
   const steadyStart = Math.floor(total * 0.75);
   const toneMeters: ToneMeter[] = [];
@@ -421,6 +429,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
         rec.referenceOff[ti] = refNoFeedback[i]!;
       }
     }
+    if (onBlock) onBlock(blockSignals, n);
     if (t + n > steadyStart) {
       for (const tm of toneMeters) {
         const g = loop.sources[tm.source]!;

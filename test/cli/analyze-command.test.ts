@@ -101,7 +101,7 @@ describe('ancbench analyze', () => {
       const text = cli.out.join('');
       expect(text).toMatch(/^causality {5}broadband \(margin 7\.\d\d ms\): The noise needs/m);
       expect(text).toMatch(/^coherence {5}bound \d+\.\d dB over 18–3548 Hz \(unweighted\)/m);
-      expect(text).toMatch(/^ {2}250 Hz +-\d+\.\d +-\d+\.\d +\d+\.\d +\d+\.\d$/m);
+      expect(text).toMatch(/^ {2}250 Hz +−\d+\.\d +−\d+\.\d +\d+\.\d +\d+\.\d$/m);
     });
   });
 
@@ -172,7 +172,7 @@ describe('ancbench analyze', () => {
       cli.err.length = 0;
       const model = write('model.json', new TextEncoder().encode('{"format": "ancbench-path-model", "version": 1}'));
       expect(await main(['analyze', ...simArgs(), '--model', model])).toBe(1);
-      expect(cli.err.join('')).toMatch(/--model ".*model\.json": invalid path model:\n {2}sampleRate: /);
+      expect(cli.err.join('')).toMatch(/--model ".*model\.json": invalid path model: sampleRate: /);
     });
 
     it('should refuse a comparison start past the end of the recordings', async () => {

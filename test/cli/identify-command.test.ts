@@ -57,7 +57,7 @@ describe('ancbench identify', () => {
     const text = cli.out.join('');
     expect(text).toMatch(/^bulk delay {4}5\.00 ms {2}\(true path 5\.00 ms/m);
     expect(text).toMatch(/^SNR {11}\d+\.\d dB/m);
-    expect(text).toMatch(/^misalignment {2}-\d+\.\d dB over 20–3600 Hz/m);
+    expect(text).toMatch(/^misalignment {2}−\d+\.\d dB over 20–3600 Hz/m);
   });
 
   it('should give a model the simulator can use in place of the true path', async () => {
@@ -96,7 +96,7 @@ describe('ancbench identify', () => {
       ['a level above full scale', ['--level', '3'], /--level must be a number from -120 to 0, got "3"/],
       ['a fractional tap count', ['--taps', '12.5'], /--taps must be a whole number from 1 to 65536, got "12\.5"/],
       ['a colour for the sweep', ['--method', 'sweep', '--color', 'pink'], /--color applies to the noise probe only/],
-      ['an unknown flag', ['--speed', '3'], /Unknown option '--speed'/],
+      ['an unknown flag', ['--speed', '3'], /unknown option "--speed"; the options are --method,/],
     ];
     for (const [what, flags, message] of cases) {
       it(`should refuse ${what} with one clear message and exit status 2`, async () => {

@@ -125,10 +125,13 @@ describe('ancbench simulate', () => {
       expect(cli.err.join('')).toMatch(/44100 Hz but the scenario runs at 8000 Hz/);
     });
 
-    it('should refuse an unknown option with the usage text', async () => {
-      const code = await main(['simulate', cli.file(good), '--frobnicate']);
+    it('should refuse an unknown option in one line naming the nearest valid one', async () => {
+      const code = await main(['simulate', cli.file(good), '--jsn']);
       expect(code).toBe(2);
-      expect(cli.err.join('')).toMatch(/Unknown option '--frobnicate'[\s\S]*usage: ancbench simulate/);
+      expect(cli.err.join('')).toBe('ancbench simulate: unknown option "--jsn"; did you mean --json? (ancbench simulate --help lists the options)\n');
+      cli.err = [];
+      expect(await main(['simulate', cli.file(good), '--frobnicate'])).toBe(2);
+      expect(cli.err.join('')).toMatch(/^ancbench simulate: unknown option "--frobnicate"; the options are --out, --json, --help \(/);
     });
 
     it('should refuse a file that does not exist', async () => {
