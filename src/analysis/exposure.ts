@@ -1,4 +1,8 @@
 /**
+ * Test-only so far: no command or panel shows exposure figures yet (the panel defers to local
+ * regulations and occupational-health practice); kept with its checks against NIOSH and OSHA for
+ * when a calibrated exposure read-out is added.
+ *
  * Noise exposure: permissible durations and daily dose, to put SPL readings in context.
  *
  * NIOSH (Criteria for a Recommended Standard: Occupational Noise Exposure, revised 1998): criterion

@@ -1,4 +1,8 @@
 /**
+ * Test-only: no production path uses this class. It pins the project's LMS step-size conventions
+ * against published figures (test/dsp/lms.test.ts: time constants, misadjustment, the adaptive notch),
+ * which the FxLMS family (src/dsp/fxlms.ts) shares.
+ *
  * Adaptive FIR filter of the LMS family: LMS, normalised LMS (NLMS) and leaky LMS.
  *
  * Convention (Haykin, *Adaptive Filter Theory*): output y(n) = wᵀx(n), error e(n) = d(n) − y(n),
