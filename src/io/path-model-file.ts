@@ -22,6 +22,7 @@
  * strings and values only.
  */
 import { z } from 'zod';
+import { fieldPath, showValue } from '../dsp/check.ts';
 import { onsetDelaySamples, resampleImpulseResponse } from '../analysis/path-model.ts';
 
 export const PATH_MODEL_FORMAT = 'ancbench-path-model';
@@ -91,19 +92,7 @@ export class PathModelError extends Error {
   }
 }
 
-function fieldName(path: readonly PropertyKey[]): string {
-  let name = '';
-  for (const key of path) name += typeof key === 'number' ? `[${key}]` : `${name ? '.' : ''}${String(key)}`;
-  return name || '(whole file)';
-}
 
-function describeValue(value: unknown): string {
-  if (value === undefined) return 'nothing';
-  if (typeof value === 'number' && !Number.isFinite(value)) return String(value);
-  const text = JSON.stringify(value);
-  if (text === undefined) return String(value);
-  return text.length > 60 ? `${text.slice(0, 57)}...` : text;
-}
 
 export interface ParsePathModelOptions {
   /** The sample rate the model will be used at, in Hz. A model of another rate is refused (unless `resample`). */
@@ -130,7 +119,7 @@ export function parsePathModel(input: unknown, options: ParsePathModelOptions = 
   if (typeof value === 'object' && value !== null && !Array.isArray(value)) {
     const v = value as Record<string, unknown>;
     if (v.format !== PATH_MODEL_FORMAT) {
-      throw new PathModelError([`format: must be "${PATH_MODEL_FORMAT}" (this is not a path-model file), got ${describeValue(v.format)}`]);
+      throw new PathModelError([`format: must be "${PATH_MODEL_FORMAT}" (this is not a path-model file), got ${showValue(v.format)}`]);
     }
     if (typeof v.version === 'number' && v.version > PATH_MODEL_VERSION) {
       throw new PathModelError([
@@ -142,9 +131,9 @@ export function parsePathModel(input: unknown, options: ParsePathModelOptions = 
   if (!result.success) {
     throw new PathModelError(
       result.error.issues.map((issue) => {
-        const where = fieldName(issue.path);
+        const where = fieldPath(issue.path, '(whole file)');
         if (issue.code === 'unrecognized_keys') return `${where}: unknown field(s) ${issue.keys.map((k) => `"${k}"`).join(', ')}`;
-        const got = 'input' in issue ? `, got ${describeValue(issue.input)}` : '';
+        const got = 'input' in issue ? `, got ${showValue(issue.input)}` : '';
         return `${where}: ${issue.message}${got}`;
       }),
     );

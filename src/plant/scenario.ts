@@ -13,6 +13,7 @@ import {
   describeRange, fitsSetting, type SettingsObject, type SettingsTable,
 } from '../engine/settings.ts';
 import { EVENT_ACTIONS } from '../engine/events.ts';
+import { fieldPath, showValue } from '../dsp/check.ts';
 
 export const SCENARIO_SCHEMA_VERSION = 1;
 
@@ -202,48 +203,6 @@ export class ScenarioError extends Error {
   }
 }
 
-function fieldPath(path: readonly PropertyKey[]): string {
-  let s = '';
-  for (const p of path) s += typeof p === 'number' ? `[${p}]` : (s ? '.' : '') + String(p);
-  return s || '(top level)';
-}
-
-/** Longest value shown in a message. */
-const SHOW_CHARS = 60;
-
-/**
- * A value for a message, at most SHOW_CHARS characters: JSON-like, but walked to a fixed depth and length
- * only (JSON.stringify recurses through the whole value, so a deeply nested one would overflow the stack).
- */
-export function show(v: unknown): string {
-  if (v === undefined) return 'nothing';
-  let out = '';
-  const room = SHOW_CHARS + 3;
-  const put = (t: string): boolean => {
-    out += t;
-    return out.length < room;
-  };
-  const walk = (x: unknown, depth: number): boolean => {
-    if (x === null || typeof x !== 'object') {
-      if (typeof x === 'string') return put(JSON.stringify(x.length > SHOW_CHARS ? x.slice(0, SHOW_CHARS) : x));
-      if (typeof x === 'number') return put(Number.isFinite(x) ? JSON.stringify(x) : String(x));
-      return put(String(x));
-    }
-    const isArray = Array.isArray(x);
-    if (depth >= 4) return put(isArray ? '[…]' : '{…}');
-    if (!put(isArray ? '[' : '{')) return false;
-    const keys = isArray ? null : Object.keys(x);
-    const count = isArray ? (x as unknown[]).length : keys!.length;
-    for (let i = 0; i < count; i++) {
-      if (i > 0 && !put(',')) return false;
-      if (keys && !put(`${JSON.stringify(keys[i]!.slice(0, SHOW_CHARS))}:`)) return false;
-      if (!walk(isArray ? (x as unknown[])[i] : (x as Record<string, unknown>)[keys ? keys[i]! : i], depth + 1)) return false;
-    }
-    return put(isArray ? ']' : '}');
-  };
-  walk(v, 0);
-  return out.length > SHOW_CHARS ? out.slice(0, SHOW_CHARS - 3) + '...' : out;
-}
 
 /**
  * Validate a parsed JSON value as a scenario. Throws ScenarioError naming every bad field.
@@ -256,9 +215,9 @@ export function parseScenario(value: unknown): Scenario {
   const r = (isRoom ? roomScenarioSchema : scenarioSchema).safeParse(value, { reportInput: true });
   if (!r.success) {
     const problems = r.error.issues.map((iss) => {
-      const where = fieldPath(iss.path);
+      const where = fieldPath(iss.path, '(top level)');
       if (iss.code === 'unrecognized_keys') return `${where}: unknown field(s) ${iss.keys.map((k) => `"${k}"`).join(', ')}`;
-      const got = 'input' in iss && !/\bgot\b/.test(iss.message) ? `, got ${show(iss.input)}` : '';
+      const got = 'input' in iss && !/\bgot\b/.test(iss.message) ? `, got ${showValue(iss.input)}` : '';
       return `${where}: ${iss.message}${got}`;
     });
     throw new ScenarioError(problems);
