@@ -11,6 +11,7 @@
  *
  * No allocation after construction; `process` never throws.
  */
+import { checkNumber } from './check.ts';
 
 export type RampShape = 'raised-cosine' | 'linear';
 
@@ -28,15 +29,10 @@ export interface GainRampConfig {
 }
 
 export const DEFAULT_FADE_MS = 50;
+
 /** Largest gain a ramp accepts (+20 dB): the ramp is a fader, not an amplifier. */
 export const MAX_RAMP_GAIN = 10;
 
-function checkRange(field: string, value: unknown, lo: number, hi: number, unit: string): number {
-  if (typeof value !== 'number' || !(value >= lo && value <= hi)) {
-    throw new RangeError(`${field} must be a number from ${lo} to ${hi}${unit}, got ${String(value)}`);
-  }
-  return value;
-}
 
 export class GainRamp {
   readonly sampleRate: number;
@@ -56,15 +52,15 @@ export class GainRamp {
 
   constructor(config: GainRampConfig) {
     if (typeof config !== 'object' || config === null) throw new TypeError('GainRamp config must be an object');
-    this.sampleRate = checkRange('sampleRate', config.sampleRate, 8000, 384000, ' Hz');
-    const initialGain = checkRange('initialGain', config.initialGain ?? 0, 0, MAX_RAMP_GAIN, '');
+    this.sampleRate = checkNumber('sampleRate', config.sampleRate, 8000, 384000, 'Hz');
+    const initialGain = checkNumber('initialGain', config.initialGain ?? 0, 0, MAX_RAMP_GAIN);
     const shape = config.shape ?? 'raised-cosine';
     if (shape !== 'raised-cosine' && shape !== 'linear') {
       throw new RangeError(`shape must be 'raised-cosine' or 'linear', got ${String(shape)}`);
     }
     this.shape = shape;
-    this.fadeInMs = checkRange('fadeInMs', config.fadeInMs ?? DEFAULT_FADE_MS, 0, 10000, ' ms');
-    this.fadeOutMs = checkRange('fadeOutMs', config.fadeOutMs ?? DEFAULT_FADE_MS, 0, 10000, ' ms');
+    this.fadeInMs = checkNumber('fadeInMs', config.fadeInMs ?? DEFAULT_FADE_MS, 0, 10000, 'ms');
+    this.fadeOutMs = checkNumber('fadeOutMs', config.fadeOutMs ?? DEFAULT_FADE_MS, 0, 10000, 'ms');
     this.current = initialGain;
     this.to = initialGain;
   }
@@ -91,8 +87,8 @@ export class GainRamp {
    * Takes effect from the next `process` call. Throws a RangeError for values out of range.
    */
   target(gain: number, timeMs: number): void {
-    checkRange('gain', gain, 0, MAX_RAMP_GAIN, '');
-    checkRange('timeMs', timeMs, 0, 10000, ' ms');
+    checkNumber('gain', gain, 0, MAX_RAMP_GAIN);
+    checkNumber('timeMs', timeMs, 0, 10000, 'ms');
     const n = Math.round((timeMs * this.sampleRate) / 1000);
     this.from = this.current;
     this.to = gain;
