@@ -14,7 +14,7 @@ import { fixed, renderLimitsReport, type ClosedLoopCap } from '../io/limits-repo
 import { buildLimitsReport, type LimitsReportFields } from '../io/limits-report.ts';
 import { readReportAssets, REPORT_FILE } from '../io/report-html-node.ts';
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
-import { levelCapConfigFromScenario, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, type LevelCapResult, type TestSignalSettings } from '../engine/level-cap-check.ts';
+import { capVerdict, levelCapConfigFromScenario, limitsTruePeak, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, type LevelCapResult, type TestSignalSettings } from '../engine/level-cap-check.ts';
 import type { Scenario } from '../plant/scenario.ts';
 import { simulate } from '../plant/simulate.ts';
 import type { WavTable } from '../plant/sources.ts';
@@ -30,7 +30,11 @@ sample is measured (sample peak and 4x true peak, ITU-R BS.1770-4), with the lim
 reduction and the guard's events. Then the scenario's closed loop runs with control on and its
 output is measured against the same cap.
 
-Exit status: 0 when the cap held, 3 when it was exceeded, 1 for a bad file, 2 for bad flags.
+Exit status: 0 when the cap held, 3 when it was exceeded, 1 for a bad file, 2 for bad flags. In the
+default output stage (limiter, then the true-peak filter) and with "truePeak": true, 0 means no output
+sample above the cap and a 4x true peak at most 0.5 dB above it. With "truePeak": false (sample peaks
+only) 0 means no output sample above the cap; the true peak is reported, not limited, and the verdict
+reads "sample peak held; true peak not limited: X dBTP".
 
   --json               print one JSON object on stdout instead of the readable summary
   --out DIR            write DIR/report.json and DIR/report.html (plots, every event)
@@ -50,8 +54,12 @@ export const EXIT_CAP_EXCEEDED = 3;
 
 /** The report (report.json; `--json` prints it without the history). The first six fields are fixed names. */
 export interface CheckLimitsReport extends LimitsReportFields {
-  /** The check and the closed loop both held the cap. */
+  /** The check and the closed loop both held the cap (in a sample-peak mode: the sample peak only; see `verdict`). */
   passed: boolean;
+  /** The line the readable summary starts with: what held, in this limiter mode. */
+  verdict: string;
+  /** What `passed` guarantees: 'sample-and-true-peak' (default and true-peak modes) or 'sample-peak'. */
+  guarantee: 'sample-and-true-peak' | 'sample-peak';
   scenario: string;
   name: string | null;
   closedLoop: Omit<ClosedLoopCap, 'peakTimeline'> | null;
@@ -154,7 +162,14 @@ export function buildReport(path: string, sc: Scenario, r: LevelCapResult, cl: C
     const { peakTimeline: _t, ...rest } = cl;
     closedLoop = rest;
   }
-  return buildLimitsReport(r, { moreReasons, origin: { scenario: path, name: sc.name ?? null }, closedLoop, moreNotes, tail: { stamp: st } });
+  const rep = buildLimitsReport(r, { moreReasons, origin: { scenario: path, name: sc.name ?? null }, closedLoop, moreNotes, tail: { stamp: st } });
+  // the largest true peak of both runs, for the sample-peak modes' verdict
+  const tp = Math.max(r.maxTruePeakDbtp, cl?.truePeakDbtp ?? -Infinity);
+  return {
+    ...rep,
+    verdict: capVerdict(rep.passed, r.limiterMode, tp, rep.reasons),
+    guarantee: limitsTruePeak(r.limiterMode) ? 'sample-and-true-peak' : 'sample-peak',
+  };
 }
 
 export function readableSummary(rep: CheckLimitsReport): string {
@@ -162,9 +177,9 @@ export function readableSummary(rep: CheckLimitsReport): string {
   const x = rep.check;
   const lines = [
     `scenario      ${rep.scenario}${rep.name ? `  (${rep.name})` : ''}`,
-    `verdict       ${rep.passed ? 'PASSED: the cap held' : `FAILED: ${rep.reasons.join('; ')}`}`,
-    `cap           ${c.toFixed(2)} dBFS ${rep.limiterMode === 'true-peak' ? 'sample peak and 4x true peak' : 'sample peak'}${rep.ceiling.spl ? ` (stricter of ${rep.ceiling.dbfsCeiling} dBFS and ${rep.ceiling.spl.peakCeilingDbSpl} dB SPL peak: ${rep.ceiling.limitedBy} rule)` : ''}`,
-    `limiter       ${rep.limiterMode}, ${rep.latencySamples} samples of look-ahead`,
+    `verdict       ${rep.verdict}`,
+    `cap           ${c.toFixed(2)} dBFS ${limitsTruePeak(rep.limiterMode) ? 'sample peak and 4x true peak' : 'sample peak'}${rep.ceiling.spl ? ` (stricter of ${rep.ceiling.dbfsCeiling} dBFS and ${rep.ceiling.spl.peakCeilingDbSpl} dB SPL peak: ${rep.ceiling.limitedBy} rule)` : ''}`,
+    `limiter       ${rep.limiterMode}, ${rep.latencySamples} samples (${fixed((1000 * rep.latencySamples) / x.sampleRate, 3)} ms) of added latency`,
     `test signal   ${x.segments.filter((s) => s.kind !== 'gap').map((s) => s.kind).join(', ')}: ${x.startDbfs.toFixed(1)} → ${x.topDbfs.toFixed(1)} dBFS, ${x.durationS.toFixed(2)} s`,
     `sample peak   ${fixed(rep.maxSamplePeakDbfs, 3)} dBFS (${fixed(rep.maxSamplePeakDbfs - c, 3)} dB from the cap), ${rep.samplesOverCeiling} samples over`,
     `true peak     ${fixed(rep.maxTruePeakDbtp)} dBTP (${fixed(rep.maxTruePeakDbtp - c)} dB from the cap${rep.truePeakToleranceDb !== null ? `, limited to +${rep.truePeakToleranceDb} dB` : '; reported, not limited, in this mode'})`,
@@ -227,7 +242,7 @@ export async function checkLimitsCommand(argv: string[]): Promise<number> {
     const cfg = levelCapConfigFromScenario(sc, { signal, ...(spl ?? {}) });
     r = runLevelCapCheck(cfg, { onProgress: (f) => bar.update(values['no-closed-loop'] ? f : 0.2 * f) });
     if (!values['no-closed-loop']) {
-      cl = closedLoopAgainstCap(sc, r.ceilingDbfs, r.limiterMode === 'true-peak', {
+      cl = closedLoopAgainstCap(sc, r.ceilingDbfs, limitsTruePeak(r.limiterMode), {
         wavs: loaded.wavs,
         ...(loaded.secondaryPathModel ? { secondaryPathModel: loaded.secondaryPathModel } : {}),
         onProgress: (f) => bar.update(0.2 + 0.8 * f),

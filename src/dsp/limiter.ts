@@ -12,7 +12,7 @@
  *   attack            e[m] = mean(h[m − A + 1 … m])         (boxcar: a linear ramp of A samples,
  *                                                            summed in a binary tree, see boxTree)
  *   release           g[m] = e[m] if e[m] ≤ g[m − 1], else g[m − 1] + αr·(e[m] − g[m − 1])
- *   output            y[m] = clamp(g[m] · x[m − D], ±c)     (D = latencySamples)
+ *   output            y[m] = clamp(g[m] · x[m − D], ±c)     (D = lookaheadSamples)
  * With D ≥ s1 + A − 1 and W = D − s0 + 1, where the r[m] computed at step m must bound the gain of
  * the input samples m − s1 … m − s0, the mean in e covers only hold values that include r[m], so
  * g ≤ r on every sample r[m] speaks for: the smooth gain alone meets the ceiling (the common
@@ -33,9 +33,25 @@
  * at D − s1 + 1 because a longer ramp could not finish before the peak leaves the delay line.
  * Release: one-pole in the linear gain domain, αr = 1 − exp(−1 / (releaseMs·fs/1000)).
  *
- * Zero-latency mode (lookaheadMs = 0 and truePeak false): r[m] from the current sample, attack by a
- * one-pole (attackMs = 0: instant, the default), release as above, then the clamp. It guarantees
- * the sample peak only; the output true peak is measured (`maxTruePeakDbtp`) in every mode.
+ * Zero-latency gain computer (lookaheadMs = 0 and truePeak false): r[m] from the current sample,
+ * attack by a one-pole (attackMs = 0: instant, the default), release as above, then the clamp. On its
+ * own it guarantees the sample peak only; the output true peak is measured (`maxTruePeakDbtp`) in
+ * every mode.
+ *
+ * True-peak filter (the default unless `truePeak` is given): after the clamp, the smoothing filter
+ *   z[m] = (8·y[m] + 17·y[m − 1] + 5·y[m − 2]) / 30                    (TRUE_PEAK_FILTER)
+ * then the clamp again. Its coefficients are positive and sum to 1, so |z| ≤ c whenever |y| ≤ c:
+ * the sample peak bound is untouched. Each 4×-interpolated point of z is a fixed 14-tap combination
+ * of y (the BS.1770-4 Annex 2 phase convolved with the filter), so it is at most the sum of that
+ * combination's |coefficients| times c (the ℓ∞ gain of an FIR filter): TRUE_PEAK_FILTER_BOUND
+ * (1.0478, +0.41 dB), computed below from the interpolator table. This is a bound for every input,
+ * not a measurement. The taps were chosen (by a search over positive 3-tap filters, ours) for the
+ * shortest delay whose bound stays near 0.4 dB: a group delay of 0.90 samples below fs/16 (the
+ * symmetric (2, 5, 2)/9 bounds at +0.30 dB but delays a full sample, and in ANC every fraction of
+ * a sample of loop delay costs broadband attenuation). Treble loss: −0.07 dB at fs/32, −0.28 dB at
+ * fs/16, −1.15 dB at fs/8, −4.8 dB at fs/4, −17.5 dB at fs/2. Delay and response are part of the
+ * secondary path (`responseTaps`); `latencySamples` counts the filter as one sample. The
+ * look-ahead gain computer can run in front of it too.
  *
  * Ceiling changes (`setCeilingDbfs`) take effect at the next block and ramp linearly over
  * CEILING_RAMP_MS. Each delayed sample carries the ceiling that was current when it entered; the
@@ -45,7 +61,7 @@
  * Float32 outputs: the clamp level is c·(1 − 2⁻²³), so rounding to float32 cannot exceed c.
  * No allocation after construction; `process` never throws.
  */
-import { TruePeakMeter, INTERPOLATOR_DELAY_SAMPLES, INTERPOLATOR_TAPS } from './true-peak.ts';
+import { TruePeakMeter, BS1770_INTERPOLATOR, INTERPOLATOR_DELAY_SAMPLES, INTERPOLATOR_TAPS } from './true-peak.ts';
 import { TruePeakMax } from './true-peak-max.ts';
 
 export interface OutputLimiterConfig {
@@ -55,10 +71,16 @@ export interface OutputLimiterConfig {
   maxBlockSize: number;
   /** Ceiling in dBFS (sample peak; 4×-oversampled true peak when `truePeak`), −120 … 0. */
   ceilingDbfs: number;
-  /** Look-ahead delay in ms, 0 … 50. 0 = zero-latency mode (the default, for use inside the control loop). */
+  /** Look-ahead delay in ms, 0 … 50. 0 = no look-ahead (the default, for use inside the control loop). */
   lookaheadMs?: number;
-  /** Limit the 4×-oversampled true peak (adds at least TRUE_PEAK_MIN_LATENCY_SAMPLES of delay). Default false. */
+  /** Limit the 4×-oversampled true peak with the look-ahead detector (adds at least TRUE_PEAK_MIN_LATENCY_SAMPLES of delay). Default false. */
   truePeak?: boolean;
+  /**
+   * Follow the limiter with the true-peak filter (TRUE_PEAK_FILTER: one sample of delay; the 4× true
+   * peak then stays within TRUE_PEAK_FILTER_BOUND_DB of the ceiling for every input). Default: on
+   * when `truePeak` is not given, off when it is (`truePeak: false` asks for sample peaks only).
+   */
+  truePeakFilter?: boolean;
   /**
    * Attack in ms, 0 … 1000. Look-ahead mode: length of the linear gain ramp, capped by the look-ahead
    * (default: the whole of it; at least 8 samples in true-peak mode). Zero-latency mode: one-pole
@@ -81,6 +103,36 @@ export const TRUE_PEAK_MIN_ATTACK_SAMPLES = 8;
 export const TRUE_PEAK_MIN_RELEASE_SAMPLES = 32;
 /** Smallest look-ahead of true-peak mode: the interpolator support (12 samples) minus one, plus the shortest ramp. */
 export const TRUE_PEAK_MIN_LATENCY_SAMPLES = INTERPOLATOR_TAPS - 1 + TRUE_PEAK_MIN_ATTACK_SAMPLES - 1;
+
+/** The true-peak filter's taps, z[m] = Σ b[k]·y[m − k]: (8, 17, 5)/30. */
+export const TRUE_PEAK_FILTER: readonly number[] = [8 / 30, 17 / 30, 5 / 30];
+/** Delay counted for the true-peak filter, whole samples (its group delay is 0.90 samples at low frequencies). */
+export const TRUE_PEAK_FILTER_DELAY_SAMPLES = 1;
+
+/**
+ * Largest 4×-interpolated |value| (BS.1770-4 Annex 2) of the true-peak filter's output per unit of
+ * its largest |input sample|: max over the four phases p of Σ_j |(h_p * b)[j]|, computed from the
+ * interpolator table (1.0478).
+ */
+export const TRUE_PEAK_FILTER_BOUND: number = (() => {
+  const b = TRUE_PEAK_FILTER;
+  let worst = 0;
+  for (let p = 0; p < 4; p++) {
+    let sum = 0;
+    for (let j = 0; j < INTERPOLATOR_TAPS + b.length - 1; j++) {
+      let v = 0;
+      for (let k = 0; k < b.length; k++) {
+        const t = j - k;
+        if (t >= 0 && t < INTERPOLATOR_TAPS) v += BS1770_INTERPOLATOR[p * INTERPOLATOR_TAPS + t]! * b[k]!;
+      }
+      sum += Math.abs(v);
+    }
+    if (sum > worst) worst = sum;
+  }
+  return worst;
+})();
+/** TRUE_PEAK_FILTER_BOUND in dB (+0.41 dB). */
+export const TRUE_PEAK_FILTER_BOUND_DB: number = 20 * Math.log10(TRUE_PEAK_FILTER_BOUND);
 
 /** Why `ceilingDbfs` is not acceptable, or null if it is (the engine can check queued messages with this). */
 export function checkCeilingDbfs(db: number): string | null {
@@ -108,11 +160,14 @@ export class OutputLimiter {
   readonly sampleRate: number;
   readonly maxBlockSize: number;
   readonly truePeak: boolean;
-  /** True when lookaheadMs = 0 and truePeak is false. */
+  /** The true-peak filter follows the limiter. */
+  readonly truePeakFilter: boolean;
+  /** True when lookaheadMs = 0 and truePeak is false (the gain computer has no look-ahead). */
   readonly zeroLatency: boolean;
   /** Boxcar attack length A in samples (look-ahead mode), 1 in zero-latency mode. */
   readonly attackSamples: number;
   private readonly latency: number;
+  private readonly lookahead: number;
   private readonly holdLength: number;
   private readonly alphaRelease: number;
   private readonly alphaAttack: number;
@@ -145,6 +200,9 @@ export class OutputLimiter {
   private readonly outputMeter: TruePeakMax;
 
   private gain = 1;
+  // True-peak filter state: the clamped samples y[m − 1], y[m − 2].
+  private f1 = 0;
+  private f2 = 0;
   private ceiling: number;
   private ceilingTarget: number;
   private ceilingStep = 0;
@@ -175,6 +233,10 @@ export class OutputLimiter {
       throw new TypeError(`truePeak must be a boolean, got ${String(config.truePeak)}`);
     }
     this.truePeak = config.truePeak ?? false;
+    if (config.truePeakFilter !== undefined && typeof config.truePeakFilter !== 'boolean') {
+      throw new TypeError(`truePeakFilter must be a boolean, got ${String(config.truePeakFilter)}`);
+    }
+    this.truePeakFilter = config.truePeakFilter ?? config.truePeak === undefined;
     const attackMs = config.attackMs === undefined ? undefined : checkRange('attackMs', config.attackMs, 0, 1000, ' ms');
     const releaseMs = checkRange('releaseMs', config.releaseMs ?? DEFAULT_RELEASE_MS, 1, 10000, ' ms');
 
@@ -194,7 +256,8 @@ export class OutputLimiter {
       const minAttack = this.truePeak ? TRUE_PEAK_MIN_ATTACK_SAMPLES : 1;
       attack = attackMs === undefined ? maxAttack : Math.max(minAttack, Math.min(maxAttack, Math.round((attackMs * fs) / 1000)));
     }
-    this.latency = latency;
+    this.lookahead = latency;
+    this.latency = latency + (this.truePeakFilter ? TRUE_PEAK_FILTER_DELAY_SAMPLES : 0);
     this.attackSamples = attack;
     this.holdLength = latency - s0 + 1;
     // True-peak mode: a release much faster than the interpolator support would let the gain
@@ -221,9 +284,34 @@ export class OutputLimiter {
     this.reset();
   }
 
-  /** Look-ahead delay of the audio path, in samples (0 in zero-latency mode). */
+  /**
+   * Delay the stage adds to the audio path, samples: the look-ahead plus, with the true-peak filter,
+   * its group delay of one sample (0 in zero-latency sample-peak mode).
+   */
   get latencySamples(): number {
     return this.latency;
+  }
+
+  /** The look-ahead delay alone, samples. */
+  get lookaheadSamples(): number {
+    return this.lookahead;
+  }
+
+  /**
+   * The stage's response to a signal it does not limit (gain 1): the look-ahead delay, then the
+   * true-peak filter when on. It is part of the secondary path. A new array on each call.
+   */
+  responseTaps(): Float64Array {
+    const d = this.lookahead;
+    if (!this.truePeakFilter) {
+      const r = new Float64Array(d + 1);
+      r[d] = 1;
+      return r;
+    }
+    const b = TRUE_PEAK_FILTER;
+    const r = new Float64Array(d + b.length);
+    for (let k = 0; k < b.length; k++) r[d + k] = b[k]!;
+    return r;
   }
 
   /** Clear every delay line, the gain state and the read-outs; keep the ceiling (a pending change is applied now). */
@@ -249,6 +337,8 @@ export class OutputLimiter {
     for (let k = this.boxLeaves - 1; k >= 1; k--) tree[k] = tree[2 * k]! + tree[2 * k + 1]!;
     this.boxPos = 0;
     this.gain = 1;
+    this.f1 = 0;
+    this.f2 = 0;
     this.detector.reset();
     this.outputMeter.reset();
     this.resetMeters();
@@ -285,7 +375,8 @@ export class OutputLimiter {
 
   /**
    * Limit n samples from `input` into `output` (they may be the same array). n is clamped to the
-   * shorter array; the output is delayed by `latencySamples`.
+   * shorter array; the output is delayed by `lookaheadSamples` (and, with the true-peak filter,
+   * filtered: its delay is one more sample).
    */
   process(input: Float32Array, output: Float32Array, n: number): void {
     let count = n < input.length ? n : input.length;
@@ -302,7 +393,13 @@ export class OutputLimiter {
     const delay = this.delay;
     const delayCeiling = this.delayCeiling;
     const dMask = this.delayMask;
-    const latency = this.latency;
+    const latency = this.lookahead;
+    const filter = this.truePeakFilter;
+    const b0 = TRUE_PEAK_FILTER[0]!;
+    const b1 = TRUE_PEAK_FILTER[1]!;
+    const b2 = TRUE_PEAK_FILTER[2]!;
+    let f1 = this.f1;
+    let f2 = this.f2;
     const dqValue = this.dqValue;
     const dqIndex = this.dqIndex;
     const qMask = this.dqMask;
@@ -403,6 +500,16 @@ export class OutputLimiter {
       let y = g * xOut;
       if (y > limit) y = limit;
       else if (y < -limit) y = -limit;
+      if (filter) {
+        // True-peak filter, then the clamp again (the filter output is a convex mix of clamped
+        // samples; during a ceiling change the older ones may carry a higher limit).
+        let z = b0 * y + b1 * f1 + b2 * f2;
+        f2 = f1;
+        f1 = y;
+        if (z > limit) z = limit;
+        else if (z < -limit) z = -limit;
+        y = z;
+      }
       output[i] = y;
       const ay = y < 0 ? -y : y;
       if (ay > peakBlock) peakBlock = ay;
@@ -410,6 +517,8 @@ export class OutputLimiter {
     }
 
     this.gain = g;
+    this.f1 = f1;
+    this.f2 = f2;
     this.ceiling = c;
     this.writePos = w;
     this.step = stepIndex;

@@ -28,8 +28,14 @@ export interface LimiterSettings {
   ceilingDbfs?: number;
   /** Look-ahead in ms (0 = zero latency, the default inside the control loop). */
   lookaheadMs?: number;
-  /** Limit the 4×-oversampled true peak (ITU-R BS.1770-4 Annex 2); needs a few samples of look-ahead. */
+  /** Limit the 4×-oversampled true peak (ITU-R BS.1770-4 Annex 2) with a look-ahead detector (≥ 18 samples). */
   truePeak?: boolean;
+  /**
+   * The true-peak filter after the limiter (src/dsp/limiter.ts: one sample of delay, 4× true peak
+   * within +0.41 dB of the ceiling). Default: on unless `truePeak` is given; `truePeak: false` alone
+   * asks for the zero-latency sample-peak mode.
+   */
+  truePeakFilter?: boolean;
   attackMs?: number;
   releaseMs?: number;
   /** Adaptation is frozen while gain reduction exceeds this (dB). Default 0.5 dB. */
@@ -182,7 +188,8 @@ export class Engine {
       maxBlockSize,
       ceilingDbfs,
       lookaheadMs: lim.lookaheadMs ?? 0,
-      truePeak: lim.truePeak ?? false,
+      ...(lim.truePeak !== undefined ? { truePeak: lim.truePeak } : {}),
+      ...(lim.truePeakFilter !== undefined ? { truePeakFilter: lim.truePeakFilter } : {}),
       ...(lim.attackMs !== undefined ? { attackMs: lim.attackMs } : {}),
       ...(lim.releaseMs !== undefined ? { releaseMs: lim.releaseMs } : {}),
     });

@@ -55,7 +55,28 @@ import { Engine, DEFAULT_CEILING_DBFS, DEFAULT_RAMP_MS, type EngineConfig, type 
 import { drainEvents, type EngineEvent } from './events.ts';
 import { ceilingDbfsForPeakSpl, SINE_CREST_DB, type MicCalibration, type OutputCalibration, type SplCeiling } from './calibration.ts';
 
-export type LimiterMode = 'zero-latency' | 'look-ahead' | 'true-peak';
+/**
+ * How the output stage limits: 'true-peak-filter' (the default: sample-peak limiter, then the true-peak
+ * filter, one sample of delay), 'true-peak' (look-ahead true-peak detector), or sample peaks only
+ * ('zero-latency', 'look-ahead': asked for with `limiter.truePeak: false`).
+ */
+export type LimiterMode = 'zero-latency' | 'look-ahead' | 'true-peak' | 'true-peak-filter';
+
+/** The mode bounds the 4× true peak (the check then holds it to TRUE_PEAK_TOLERANCE_DB above the ceiling). */
+export function limitsTruePeak(mode: LimiterMode): boolean {
+  return mode === 'true-peak' || mode === 'true-peak-filter';
+}
+
+/**
+ * The one-line verdict every host prints. What a pass means depends on the mode: in the true-peak
+ * modes, no output sample above the cap and the 4× true peak within the tolerance; in the
+ * sample-peak modes only the former, so the verdict says so and gives the true peak it did not limit.
+ */
+export function capVerdict(passed: boolean, mode: LimiterMode, truePeakDbtp: number, reasons: readonly string[]): string {
+  if (!passed) return `FAILED: ${reasons.join('; ')}`;
+  if (limitsTruePeak(mode)) return `PASSED: the cap held (sample peak, and 4x true peak within +${TRUE_PEAK_TOLERANCE_DB} dB)`;
+  return `sample peak held; true peak not limited: ${Number.isFinite(truePeakDbtp) ? truePeakDbtp.toFixed(2) : 'n/a'} dBTP`;
+}
 export type TestSignalKind = 'tone' | 'noise' | 'adversarial';
 
 /** In true-peak mode the output's 4×-oversampled peak may exceed the ceiling by at most this, dB (issue 5). */
@@ -198,7 +219,7 @@ export interface LevelCapResult {
   ceilingDbfs: number;
   ceiling: EffectiveCeiling;
   limiterMode: LimiterMode;
-  /** Look-ahead of the output stage, samples. */
+  /** Delay the output stage adds, samples (look-ahead, plus one for the true-peak filter). */
   latencySamples: number;
   maxSamplePeakDbfs: number;
   maxTruePeakDbtp: number;
@@ -491,7 +512,7 @@ export class LevelCapCheck {
       eventCapacity: 1024,
     });
     const lim = this.engine.limiter;
-    this.limiterMode = lim.truePeak ? 'true-peak' : lim.zeroLatency ? 'zero-latency' : 'look-ahead';
+    this.limiterMode = lim.truePeak ? 'true-peak' : lim.truePeakFilter ? 'true-peak-filter' : lim.zeroLatency ? 'zero-latency' : 'look-ahead';
     this.sampleRate = fs;
     this.blockSize = B;
 
@@ -685,7 +706,7 @@ export class LevelCapCheck {
       else if (v === -Infinity) notes.push(`${k} is −Infinity: the output was silent`);
     }
     if (this.over > 0) reasons.push(`${this.over} output samples exceeded the ${c.toFixed(2)} dBFS ceiling (largest ${maxSamplePeakDbfs.toFixed(3)} dBFS)`);
-    const truePeakMode = this.limiterMode === 'true-peak';
+    const truePeakMode = limitsTruePeak(this.limiterMode);
     if (truePeakMode && this.overTrue > 0) {
       reasons.push(`the 4× true peak reached ${maxTruePeakDbtp.toFixed(2)} dBTP, more than ${TRUE_PEAK_TOLERANCE_DB} dB above the ${c.toFixed(2)} dBFS ceiling`);
     }

@@ -119,7 +119,8 @@ export const SIMULATION_ONLY_FIELDS = {
 export const LIMITER_SETTINGS = {
   ceilingDbfs: { type: 'number', unit: 'dBFS', min: -120, max: 0, default: -6, live: true, description: 'output cap: no output sample exceeds it' },
   lookaheadMs: { type: 'number', unit: 'ms', min: 0, max: 50, default: 0, live: false, description: 'limiter look-ahead (part of the secondary path)' },
-  truePeak: { type: 'boolean', default: false, live: false, description: 'limit the 4×-oversampled true peak (ITU-R BS.1770-4 Annex 2) rather than the sample peak' },
+  truePeak: { type: 'boolean', live: false, description: 'limit the 4×-oversampled true peak (ITU-R BS.1770-4 Annex 2) with a look-ahead detector (≥ 18 samples of latency); false alone asks for the zero-latency sample-peak mode' },
+  truePeakFilter: { type: 'boolean', live: false, description: 'the short filter after the limiter that bounds the 4× true peak (one sample of delay, within +0.41 dB of the cap); on unless truePeak is given' },
   attackMs: { type: 'number', unit: 'ms', min: 0, max: 100, live: false, description: 'limiter attack' },
   releaseMs: { type: 'number', unit: 'ms', min: 1, max: 5000, live: false, description: 'limiter release' },
 } as const satisfies SettingsTable;

@@ -9,7 +9,8 @@
  * and every event of both runs.
  */
 import type { EngineEvent } from '../engine/events.ts';
-import type { LevelCapResult } from '../engine/level-cap-check.ts';
+import { capVerdict, limitsTruePeak, type LevelCapResult } from '../engine/level-cap-check.ts';
+import { TRUE_PEAK_FILTER_BOUND_DB } from '../dsp/limiter.ts';
 import { renderReportHtml, REPORT_COLORS, type PlotSpec, type ReportAssets, type ReportSection } from './report-html.ts';
 
 /** The scenario's closed loop run beside the check: its output against the same cap. */
@@ -71,12 +72,15 @@ function modeText(r: LevelCapResult): string {
   const ms = (1000 * r.latencySamples) / r.sampleRate;
   if (r.limiterMode === 'zero-latency') return 'zero latency (sample peak limited; true peak reported only)';
   if (r.limiterMode === 'look-ahead') return `look-ahead, ${r.latencySamples} samples (${ms.toFixed(2)} ms; sample peak limited; true peak reported only)`;
+  if (r.limiterMode === 'true-peak-filter') {
+    return `sample-peak limiter and true-peak filter, ${r.latencySamples} samples of added latency (${ms.toFixed(2)} ms; 4× true peak bounded to +${TRUE_PEAK_FILTER_BOUND_DB.toFixed(2)} dB, checked within ${r.truePeakToleranceDb} dB)`;
+  }
   return `true peak, ${r.latencySamples} samples of look-ahead (${ms.toFixed(2)} ms; 4× true peak limited to within ${r.truePeakToleranceDb} dB)`;
 }
 
 function ceilingText(r: LevelCapResult): string {
   const c = r.ceiling;
-  const what = r.limiterMode === 'true-peak' ? 'sample peak and 4× true peak' : 'sample peak';
+  const what = limitsTruePeak(r.limiterMode) ? 'sample peak and 4× true peak' : 'sample peak';
   if (!c.spl) return `${f(r.ceilingDbfs)} dBFS (${what})`;
   const s = c.spl;
   return (
@@ -96,9 +100,8 @@ export function renderLimitsReport(input: LimitsReportInput, assets: ReportAsset
   const h = r.history;
   const c = r.ceilingDbfs;
   const cl = input.closedLoop;
-  const verdict = input.passed
-    ? `PASSED: no output sample went above the ${f(c)} dBFS cap${r.limiterMode === 'true-peak' ? `, and the true peak stayed within ${r.truePeakToleranceDb} dB of it` : ''}.`
-    : `FAILED: ${input.reasons.join('; ')}.`;
+  const largestTruePeak = Math.max(r.maxTruePeakDbtp, cl?.truePeakDbtp ?? -Infinity);
+  const verdict = `${capVerdict(input.passed, r.limiterMode, largestTruePeak, input.reasons)}.`;
   const rows: [string, string][] = [
     ['verdict', verdict],
     ['cap (ceiling)', ceilingText(r)],
@@ -106,7 +109,7 @@ export function renderLimitsReport(input: LimitsReportInput, assets: ReportAsset
     ['largest sample peak', `${f(r.maxSamplePeakDbfs, 3)} dBFS (${f(r.maxSamplePeakDbfs - c, 3)} dB from the cap); ${r.samplesOverCeiling} samples above it`],
     [
       'largest true peak (4×, BS.1770-4)',
-      `${f(r.maxTruePeakDbtp)} dBTP (${f(r.maxTruePeakDbtp - c)} dB from the cap${r.limiterMode === 'true-peak' ? `, tolerance ${r.truePeakToleranceDb} dB` : '; a sample-limited signal can read up to about 6 dB higher'})`,
+      `${f(r.maxTruePeakDbtp)} dBTP (${f(r.maxTruePeakDbtp - c)} dB from the cap${limitsTruePeak(r.limiterMode) ? `, tolerance ${r.truePeakToleranceDb} dB` : '; not limited in this mode: a sample-limited signal can read up to about 6 dB higher'})`,
     ],
     ...(r.maxPeakDbSplBound !== null ? ([['largest peak SPL (bound)', `${f(r.maxPeakDbSplBound, 1)} dB SPL at the listening position, highest calibrated sensitivity`]] as [string, string][]) : []),
     ...(r.errorMic

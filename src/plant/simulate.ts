@@ -202,10 +202,10 @@ export class PlantLoop {
     // identification would see it, and the model built from the truth includes it.
     const hp = sc.highPassHz ?? 0;
     const limiterSettings = { ...(sc.limiter ?? {}), ceilingDbfs: scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS) };
-    // the limiter's look-ahead delays everything the controller plays: it is part of the secondary path
-    const lookahead = new OutputLimiter({ sampleRate: fs, maxBlockSize: B, ...limiterSettings }).latencySamples;
+    // the limiter's look-ahead delay and true-peak filter shape everything the controller plays: they are part of the secondary path
+    const stage = new OutputLimiter({ sampleRate: fs, maxBlockSize: B, ...limiterSettings }).responseTaps();
     const acoustic = hp > 0 ? withHighPass(trueSecondaryPath(sc), hp, fs) : trueSecondaryPath(sc);
-    this.trueSecondaryPath = lookahead > 0 ? delayed(acoustic, lookahead) : acoustic;
+    this.trueSecondaryPath = stage.length > 1 ? convolved(acoustic, stage) : acoustic;
     this.secondaryPathModel = opts.secondaryPathModel ?? imperfectModel(this.trueSecondaryPath, sc.controller);
     try {
       this.engine = new Engine({
@@ -329,9 +329,14 @@ export class PlantLoop {
   }
 }
 
-function delayed(x: Float64Array, d: number): Float64Array {
-  const out = new Float64Array(x.length + d);
-  out.set(x, d);
+/** Full linear convolution of a path with the output stage's short response. */
+function convolved(x: Float64Array, h: Float64Array): Float64Array {
+  const out = new Float64Array(x.length + h.length - 1);
+  for (let k = 0; k < h.length; k++) {
+    const hk = h[k]!;
+    if (hk === 0) continue;
+    for (let i = 0; i < x.length; i++) out[i + k] += hk * x[i]!;
+  }
   return out;
 }
 

@@ -17,7 +17,7 @@ import type { PlotConfig, AncbPlot } from './plot.ts';
 import './plot.ts';
 import type { LiveLevelCheckReport } from '../web/level-check-report.ts';
 import type { LevelCheckRequest } from '../protocol/messages.ts';
-import { DEFAULT_HOLD_S, DEFAULT_GAP_S, DEFAULT_OVER_DB, DEFAULT_START_DBFS } from '../engine/level-cap-check.ts';
+import { DEFAULT_HOLD_S, DEFAULT_GAP_S, DEFAULT_OVER_DB, DEFAULT_START_DBFS, limitsTruePeak, TRUE_PEAK_TOLERANCE_DB } from '../engine/level-cap-check.ts';
 import { emit } from './emit.ts';
 
 export const LC_RAMP_S_DEFAULT = 2;
@@ -216,13 +216,17 @@ export class AncbLevelCheck extends LitElement {
     const yLow = Math.floor(Math.min(r.check.startDbfs, c) - 6);
     const yHigh = Math.ceil(Math.max(r.check.topDbfs, c) + 6);
     return html`<p class="verdict ${r.passed ? '' : 'failed'}" id="lc-verdict" data-passed=${String(r.passed)} role="status">
-        ${r.passed ? `Passed: no sample handed to the output went above the ${fmtDb(c, 2)} dBFS cap.` : `Failed: ${r.reasons.join('; ')}.`}
+        ${!r.passed
+          ? `Failed: ${r.reasons.join('; ')}.`
+          : limitsTruePeak(r.limiterMode)
+            ? `Passed: no sample handed to the output went above the ${fmtDb(c, 2)} dBFS cap, and the 4× true peak stayed within ${TRUE_PEAK_TOLERANCE_DB} dB of it.`
+            : `Sample peak held; true peak not limited: ${fmtDb(r.maxTruePeakDbtp, 2)} dBTP.`}
       </p>
       <dl>
         <dt>Cap</dt><dd data-field="ceiling" data-value=${dv(c)}>${fmtDb(c, 2)} dBFS sample peak${r.ceiling.spl ? ` (stricter of ${fmtDb(r.ceiling.dbfsCeiling, 1)} dBFS and ${fmtDb(r.ceiling.spl.peakCeilingDbSpl, 1)} dB SPL peak)` : ''}</dd>
         <dt>Largest sample peak</dt><dd data-field="sample-peak" data-value=${dv(r.maxSamplePeakDbfs)}>${fmtDb(r.maxSamplePeakDbfs, 3)} dBFS, ${r.samplesOverCeiling} samples over</dd>
         <dt>Handed to the output</dt><dd data-field="handed-peak" data-value=${dv(o.maxSamplePeakDbfs)} data-over=${String(o.samplesOverCeiling)} data-samples=${String(o.samples)}>${o.samples} samples, largest ${fmtDb(o.maxSamplePeakDbfs, 3)} dBFS, ${o.samplesOverCeiling} over, ${o.nonFinite} not finite</dd>
-        <dt>True peak (4×)</dt><dd data-field="true-peak" data-value=${dv(r.maxTruePeakDbtp)}>${fmtDb(r.maxTruePeakDbtp, 2)} dBTP${r.limiterMode === 'true-peak' ? '' : ' (sample-peak limiter: reported, not limited; up to about 6 dB over the cap is possible)'}</dd>
+        <dt>True peak (4×)</dt><dd data-field="true-peak" data-value=${dv(r.maxTruePeakDbtp)}>${fmtDb(r.maxTruePeakDbtp, 2)} dBTP${limitsTruePeak(r.limiterMode) ? ` (held within ${TRUE_PEAK_TOLERANCE_DB} dB of the cap)` : ' (sample-peak limiter: reported, not limited; up to about 6 dB over the cap is possible)'}</dd>
         <dt>Limiter</dt><dd data-field="gr" data-value=${dv(r.maxGainReductionDb)}>${r.limiterMode}, up to ${fmtDb(r.maxGainReductionDb, 1)} dB gain reduction</dd>
         ${r.check.errorMic ? html`<dt>Error mic</dt><dd data-field="mic">peak ${fmtDb(r.check.errorMic.maxSamplePeakDbfs, 1)} dBFS${r.check.errorMic.maxPeakDbSpl !== null ? ` = ${fmtDb(r.check.errorMic.maxPeakDbSpl, 1)} dB SPL peak` : ''}</dd>` : ''}
         <dt>Test signal</dt><dd>${r.check.segments.filter((s) => s.kind !== 'gap').map((s) => s.kind).join(', ')}: ${fmtDb(r.check.startDbfs, 1)} → ${fmtDb(r.check.topDbfs, 1)} dBFS, tone ${fmtHz(r.check.toneHz)}, ${r.check.durationS.toFixed(1)} s${r.check.completed ? '' : ' (stopped early)'}</dd>

@@ -87,7 +87,8 @@ describe('live level-cap check (Chromium fake devices)', () => {
     const rep = JSON.parse(json.text) as Record<string, unknown>;
     expect(Object.keys(rep).slice(0, FIXED_KEYS.length)).toEqual(FIXED_KEYS);
     expect(rep.passed).toBe(true);
-    expect(rep.limiterMode).toBe('zero-latency');
+    expect(rep.limiterMode).toBe('true-peak-filter'); // the default output stage
+    expect(rep.maxTruePeakDbtp as number).toBeLessThanOrEqual((rep.ceilingDbfs as number) + 0.5);
     expect(rep.maxSamplePeakDbfs as number).toBeLessThanOrEqual((rep.ceilingDbfs as number) + 1e-4);
     const handed = rep.handedToOutput as { samples: number; samplesOverCeiling: number; nonFinite: number };
     expect(handed.samplesOverCeiling).toBe(0);

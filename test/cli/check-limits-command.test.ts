@@ -31,12 +31,11 @@ describe('ancbench check-limits', () => {
     expect(cli.out.length).toBe(1);
     const j = JSON.parse(cli.out[0]!);
     expect(j.ceilingDbfs).toBe(-6);
-    expect(j.limiterMode).toBe('zero-latency');
+    expect(j.limiterMode).toBe('true-peak-filter'); // the default output stage
     expect(j.passed).toBe(true);
     expect(j.maxSamplePeakDbfs).toBeLessThanOrEqual(-6);
-    expect(j.maxSamplePeakDbfs).toBeGreaterThan(-6.01);
-    // the Nyquist pattern reads about 6 dB higher on the BS.1770-4 true-peak meter
-    expect(j.maxTruePeakDbtp).toBeGreaterThan(-1);
+    expect(j.maxSamplePeakDbfs).toBeGreaterThan(-6.25);
+    expect(j.maxTruePeakDbtp).toBeLessThanOrEqual(-6 + 0.5);
     expect(Array.isArray(j.events)).toBe(true);
     expect(j.events.map((e: { cause: string }) => e.cause)).toContain('output-at-ceiling');
     for (const e of j.events) expect(Object.keys(e).sort()).toEqual(['action', 'cause', 'timeS', 'values']);
@@ -131,5 +130,50 @@ describe('ancbench check-limits', () => {
       expect(await main(['check-limits', '--help'])).toBe(0);
       expect(cli.out.join('')).toMatch(/usage: ancbench check-limits <scenario\.json> \[--json\] \[--out DIR\]/);
     });
+  });
+});
+
+describe('ancbench check-limits verdicts by limiter mode', () => {
+  it('should say "PASSED" for the default stage only with the true peak held within 0.5 dB', async () => {
+    expect(await main(['check-limits', cli.file(good), '--json', ...QUICK])).toBe(0);
+    const j = JSON.parse(cli.out.join(''));
+    expect(j.limiterMode).toBe('true-peak-filter');
+    expect(j.guarantee).toBe('sample-and-true-peak');
+    expect(j.verdict).toMatch(/^PASSED: the cap held \(sample peak, and 4x true peak within \+0\.5 dB\)$/);
+    expect(j.truePeakToleranceDb).toBe(0.5);
+    expect(j.maxTruePeakDbtp).toBeLessThanOrEqual(-5.5);
+    expect(j.closedLoop.truePeakDbtp).toBeLessThanOrEqual(-5.5);
+    expect(j.latencySamples).toBe(1);
+  });
+
+  it('should never print plain PASSED in the zero-latency sample-peak mode, and give the true peak it let through', async () => {
+    // The adversarial Nyquist pattern of the check reads about +6.1 dB above its sample peak on the
+    // ITU-R BS.1770-4 Annex 2 interpolator (the sum of |coefficients| of one phase, 2.0228, calculated).
+    const sc = { ...good, limiter: { truePeak: false } };
+    const code = await main(['check-limits', cli.file(sc), ...QUICK]);
+    expect(code).toBe(0); // 0 = the sample peak held
+    const text = cli.out.join('');
+    const tp = /true peak not limited: (-?\d+\.\d+) dBTP/.exec(text);
+    expect(tp).not.toBeNull();
+    expect(Number(tp![1])).toBeGreaterThan(-6 + 5);
+    expect(text).toMatch(/verdict +sample peak held; true peak not limited: /);
+    expect(text).not.toMatch(/PASSED/);
+    cli.out.length = 0;
+    expect(await main(['check-limits', cli.file(sc), '--json', '--no-closed-loop', ...QUICK])).toBe(0);
+    const j = JSON.parse(cli.out.join(''));
+    expect(j.limiterMode).toBe('zero-latency');
+    expect(j.guarantee).toBe('sample-peak');
+    expect(j.passed).toBe(true);
+    expect(j.verdict).toBe(`sample peak held; true peak not limited: ${j.maxTruePeakDbtp.toFixed(2)} dBTP`);
+    expect(j.latencySamples).toBe(0);
+  });
+
+  it('should write the same verdict into report.html', async () => {
+    const sc = { ...good, limiter: { truePeak: false } };
+    const dir = `${cli.dir}/out`;
+    expect(await main(['check-limits', cli.file(sc), '--out', dir, '--no-closed-loop', ...QUICK])).toBe(0);
+    const html = readFileSync(`${dir}/report.html`, 'utf8');
+    expect(html).toMatch(/sample peak held; true peak not limited: -?\d+\.\d\d dBTP/);
+    expect(html).not.toMatch(/PASSED/);
   });
 });

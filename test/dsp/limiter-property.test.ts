@@ -1,6 +1,6 @@
 import { describe, it } from 'vitest';
 import fc from 'fast-check';
-import { OutputLimiter } from '../../src/dsp/limiter.ts';
+import { OutputLimiter, TRUE_PEAK_FILTER_BOUND } from '../../src/dsp/limiter.ts';
 import { TruePeakMeter } from '../../src/dsp/true-peak.ts';
 
 // Property-based checks of the output-safety guarantees with random and adversarial inputs and
@@ -53,13 +53,13 @@ const signal = fc.oneof(
 
 type Settings = typeof settings extends fc.Arbitrary<infer T> ? T : never;
 
-function runLimiter(cfg: Settings, values: number[]) {
+function runLimiter(cfg: Omit<Settings, 'truePeak'> & { truePeak: boolean | undefined }, values: number[]) {
   const lim = new OutputLimiter({
     sampleRate: cfg.sampleRate,
     maxBlockSize: cfg.blockSize,
     ceilingDbfs: cfg.ceilingDbfs,
     lookaheadMs: cfg.lookaheadMs,
-    truePeak: cfg.truePeak,
+    ...(cfg.truePeak !== undefined ? { truePeak: cfg.truePeak } : {}),
     attackMs: cfg.attackMs,
     releaseMs: cfg.releaseMs,
   });
@@ -103,6 +103,23 @@ describe('OutputLimiter (properties)', () => {
         return meter.peakDbtp <= cfg.ceilingDbfs + 0.5;
       }),
       { numRuns: 150, seed: 20240602 },
+    );
+  });
+
+  it('should keep the default stage (limiter, then the true-peak filter) within the ceiling and its true-peak bound, whatever the input', () => {
+    // The bound is the ℓ∞ gain of the Annex 2 phases convolved with the filter (src/dsp/limiter.ts): it holds
+    // for every input whose samples are within the ceiling, which the clamp before the filter guarantees.
+    fc.assert(
+      fc.property(settings, signal, (cfg, values) => {
+        const { lim, y } = runLimiter({ ...cfg, truePeak: undefined }, values);
+        if (!lim.truePeakFilter) return false;
+        const c = Math.pow(10, cfg.ceilingDbfs / 20);
+        for (const v of y) if (!Number.isFinite(v) || Math.abs(v) > c) return false;
+        const meter = new TruePeakMeter();
+        meter.process(y, y.length);
+        return meter.peak <= c * TRUE_PEAK_FILTER_BOUND * (1 + 1e-6) && meter.peakDbtp <= cfg.ceilingDbfs + 0.5;
+      }),
+      { numRuns: 150, seed: 20261204 },
     );
   });
 });

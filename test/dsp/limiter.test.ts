@@ -33,7 +33,8 @@ function maxAbs(x: Float32Array, from = 0, to = x.length): number {
   return m;
 }
 
-const base: OutputLimiterConfig = { sampleRate: FS, maxBlockSize: 128, ceilingDbfs: -6 };
+// Most checks here are of the gain computer alone: the sample-peak modes (truePeak: false, no true-peak filter).
+const base: OutputLimiterConfig = { sampleRate: FS, maxBlockSize: 128, ceilingDbfs: -6, truePeak: false };
 
 describe('OutputLimiter', () => {
   describe('with an invalid configuration', () => {
@@ -233,7 +234,7 @@ describe('OutputLimiter', () => {
       const rng = new Random(3);
       const x = new Float32Array(5000);
       rng.fillGaussian(x, 0.8);
-      for (const cfg of [{}, { lookaheadMs: 1.3 }, { truePeak: true }]) {
+      for (const cfg of [{}, { lookaheadMs: 1.3 }, { truePeak: true }, { truePeakFilter: true }, { lookaheadMs: 1.3, truePeakFilter: true }]) {
         const a = new OutputLimiter({ ...base, maxBlockSize: 5000, ...cfg });
         const ya = new Float32Array(x.length);
         a.process(x, ya, x.length);

@@ -87,7 +87,8 @@ describe('Engine', () => {
       expect(gains[3]!).toBeLessThan(1);
       expect(gains[5]!).toBe(1);
       engine.setMode('idle');
-      for (let b = 0; b < 6; b++) engine.process(ref, err, out, 32);
+      // the fade (5 blocks), then the true-peak filter's memory of two samples
+      for (let b = 0; b < 7; b++) engine.process(ref, err, out, 32);
       expect(engine.meters.rampGain).toBe(0);
       expect(out.every((v) => v === 0)).toBe(true);
     });

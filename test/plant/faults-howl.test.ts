@@ -37,6 +37,9 @@ function howlScenario(guard: Record<string, unknown>, durationS: number): Scenar
     controller: { algorithm: 'fxnlms', taps: 128, stepSize: 0.01 },
     controlStartS: 1,
     outputCeilingDbfs: CEILING_DBFS,
+    // the howl timings below were measured with the sample-peak stage; the default true-peak filter sits
+    // in the feedback loop too and changes when a howl builds up again (later, here), not whether it is caught
+    limiter: { truePeak: false },
     guard,
   });
 }
