@@ -179,7 +179,7 @@ export function readableSummary(rep: CheckLimitsReport): string {
     `scenario      ${rep.scenario}${rep.name ? `  (${rep.name})` : ''}`,
     `verdict       ${rep.verdict}`,
     `cap           ${c.toFixed(2)} dBFS ${limitsTruePeak(rep.limiterMode) ? 'sample peak and 4x true peak' : 'sample peak'}${rep.ceiling.spl ? ` (stricter of ${rep.ceiling.dbfsCeiling} dBFS and ${rep.ceiling.spl.peakCeilingDbSpl} dB SPL peak: ${rep.ceiling.limitedBy} rule)` : ''}`,
-    `limiter       ${rep.limiterMode}, ${rep.latencySamples} samples (${fixed((1000 * rep.latencySamples) / x.sampleRate, 3)} ms) of added latency`,
+    `limiter       ${rep.limiterMode}, ${rep.latencySamples} sample${rep.latencySamples === 1 ? '' : 's'} (${fixed((1000 * rep.latencySamples) / x.sampleRate, 3)} ms) of added latency`,
     `test signal   ${x.segments.filter((s) => s.kind !== 'gap').map((s) => s.kind).join(', ')}: ${x.startDbfs.toFixed(1)} → ${x.topDbfs.toFixed(1)} dBFS, ${x.durationS.toFixed(2)} s`,
     `sample peak   ${fixed(rep.maxSamplePeakDbfs, 3)} dBFS (${fixed(rep.maxSamplePeakDbfs - c, 3)} dB from the cap), ${rep.samplesOverCeiling} samples over`,
     `true peak     ${fixed(rep.maxTruePeakDbtp)} dBTP (${fixed(rep.maxTruePeakDbtp - c)} dB from the cap${rep.truePeakToleranceDb !== null ? `, limited to +${rep.truePeakToleranceDb} dB` : '; reported, not limited, in this mode'})`,
