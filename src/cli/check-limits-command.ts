@@ -14,7 +14,7 @@ import { fixed, renderLimitsReport, type ClosedLoopCap } from '../io/limits-repo
 import { buildLimitsReport, type LimitsReportFields } from '../io/limits-report.ts';
 import { readReportAssets, REPORT_FILE } from '../io/report-html-node.ts';
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
-import { capVerdict, levelCapConfigFromScenario, limitsTruePeak, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, type LevelCapResult, type TestSignalSettings } from '../plant/level-cap-check.ts';
+import { levelCapConfigFromScenario, limitsTruePeak, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, type LevelCapResult, type TestSignalSettings } from '../plant/level-cap-check.ts';
 import type { Scenario } from '../plant/scenario.ts';
 import { simulate } from '../plant/simulate.ts';
 import type { WavTable } from '../plant/sources.ts';
@@ -56,10 +56,6 @@ export const EXIT_CAP_EXCEEDED = 3;
 export interface CheckLimitsReport extends LimitsReportFields {
   /** The check and the closed loop both held the cap (in a sample-peak mode: the sample peak only; see `verdict`). */
   passed: boolean;
-  /** The line the readable summary starts with: what held, in this limiter mode. */
-  verdict: string;
-  /** What `passed` guarantees: 'sample-and-true-peak' (default and true-peak modes) or 'sample-peak'. */
-  guarantee: 'sample-and-true-peak' | 'sample-peak';
   scenario: string;
   name: string | null;
   closedLoop: Omit<ClosedLoopCap, 'peakTimeline'> | null;
@@ -162,14 +158,14 @@ export function buildReport(path: string, sc: Scenario, r: LevelCapResult, cl: C
     const { peakTimeline: _t, ...rest } = cl;
     closedLoop = rest;
   }
-  const rep = buildLimitsReport(r, { moreReasons, origin: { scenario: path, name: sc.name ?? null }, closedLoop, moreNotes, tail: { stamp: st } });
-  // the largest true peak of both runs, for the sample-peak modes' verdict
-  const tp = Math.max(r.maxTruePeakDbtp, cl?.truePeakDbtp ?? -Infinity);
-  return {
-    ...rep,
-    verdict: capVerdict(rep.passed, r.limiterMode, tp, rep.reasons),
-    guarantee: limitsTruePeak(r.limiterMode) ? 'sample-and-true-peak' : 'sample-peak',
-  };
+  return buildLimitsReport(r, {
+    moreReasons,
+    origin: { scenario: path, name: sc.name ?? null },
+    closedLoop,
+    moreNotes,
+    tail: { stamp: st },
+    moreTruePeakDbtp: cl?.truePeakDbtp ?? null,
+  });
 }
 
 export function readableSummary(rep: CheckLimitsReport): string {
