@@ -14,7 +14,7 @@ import { fixed, renderLimitsReport, type ClosedLoopCap } from '../io/limits-repo
 import { buildLimitsReport, type LimitsReportFields } from '../io/limits-report.ts';
 import { readReportAssets, REPORT_FILE } from '../io/report-html-node.ts';
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
-import { capVerdict, levelCapConfigFromScenario, limitsTruePeak, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, type LevelCapResult, type TestSignalSettings } from '../engine/level-cap-check.ts';
+import { levelCapConfigFromScenario, limitsTruePeak, runLevelCapCheck, TRUE_PEAK_TOLERANCE_DB, type LevelCapResult, type TestSignalSettings } from '../engine/level-cap-check.ts';
 import type { Scenario } from '../plant/scenario.ts';
 import { simulate } from '../plant/simulate.ts';
 import type { WavTable } from '../plant/sources.ts';
@@ -56,10 +56,6 @@ export const EXIT_CAP_EXCEEDED = 3;
 export interface CheckLimitsReport extends LimitsReportFields {
   /** The check and the closed loop both held the cap (in a sample-peak mode: the sample peak only; see `verdict`). */
   passed: boolean;
-  /** The line the readable summary starts with: what held, in this limiter mode. */
-  verdict: string;
-  /** What `passed` guarantees: 'sample-and-true-peak' (default and true-peak modes) or 'sample-peak'. */
-  guarantee: 'sample-and-true-peak' | 'sample-peak';
   scenario: string;
   name: string | null;
   closedLoop: Omit<ClosedLoopCap, 'peakTimeline'> | null;
@@ -162,14 +158,14 @@ export function buildReport(path: string, sc: Scenario, r: LevelCapResult, cl: C
     const { peakTimeline: _t, ...rest } = cl;
     closedLoop = rest;
   }
-  const rep = buildLimitsReport(r, { moreReasons, origin: { scenario: path, name: sc.name ?? null }, closedLoop, moreNotes, tail: { stamp: st } });
-  // the largest true peak of both runs, for the sample-peak modes' verdict
-  const tp = Math.max(r.maxTruePeakDbtp, cl?.truePeakDbtp ?? -Infinity);
-  return {
-    ...rep,
-    verdict: capVerdict(rep.passed, r.limiterMode, tp, rep.reasons),
-    guarantee: limitsTruePeak(r.limiterMode) ? 'sample-and-true-peak' : 'sample-peak',
-  };
+  return buildLimitsReport(r, {
+    moreReasons,
+    origin: { scenario: path, name: sc.name ?? null },
+    closedLoop,
+    moreNotes,
+    tail: { stamp: st },
+    moreTruePeakDbtp: cl?.truePeakDbtp ?? null,
+  });
 }
 
 export function readableSummary(rep: CheckLimitsReport): string {
@@ -179,7 +175,7 @@ export function readableSummary(rep: CheckLimitsReport): string {
     `scenario      ${rep.scenario}${rep.name ? `  (${rep.name})` : ''}`,
     `verdict       ${rep.verdict}`,
     `cap           ${c.toFixed(2)} dBFS ${limitsTruePeak(rep.limiterMode) ? 'sample peak and 4x true peak' : 'sample peak'}${rep.ceiling.spl ? ` (stricter of ${rep.ceiling.dbfsCeiling} dBFS and ${rep.ceiling.spl.peakCeilingDbSpl} dB SPL peak: ${rep.ceiling.limitedBy} rule)` : ''}`,
-    `limiter       ${rep.limiterMode}, ${rep.latencySamples} samples (${fixed((1000 * rep.latencySamples) / x.sampleRate, 3)} ms) of added latency`,
+    `limiter       ${rep.limiterMode}, ${rep.latencySamples} sample${rep.latencySamples === 1 ? '' : 's'} (${fixed((1000 * rep.latencySamples) / x.sampleRate, 3)} ms) of added latency`,
     `test signal   ${x.segments.filter((s) => s.kind !== 'gap').map((s) => s.kind).join(', ')}: ${x.startDbfs.toFixed(1)} → ${x.topDbfs.toFixed(1)} dBFS, ${x.durationS.toFixed(2)} s`,
     `sample peak   ${fixed(rep.maxSamplePeakDbfs, 3)} dBFS (${fixed(rep.maxSamplePeakDbfs - c, 3)} dB from the cap), ${rep.samplesOverCeiling} samples over`,
     `true peak     ${fixed(rep.maxTruePeakDbtp)} dBTP (${fixed(rep.maxTruePeakDbtp - c)} dB from the cap${rep.truePeakToleranceDb !== null ? `, limited to +${rep.truePeakToleranceDb} dB` : '; reported, not limited, in this mode'})`,

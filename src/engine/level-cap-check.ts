@@ -36,9 +36,11 @@
  * 10 ms: test-signal peak, output sample and true peak, the limiter's largest gain reduction, and the
  * error-mic peak when the host gives error-mic samples (live sessions).
  *
- * Verdict: passed ⇔ every output sample finite and none above the ceiling, and in true-peak mode
- * the true peak at most TRUE_PEAK_TOLERANCE_DB above it; with a microphone calibration and an SPL
- * ceiling, also the error mic's peak SPL at most the SPL ceiling.
+ * Verdict: passed ⇔ every output sample finite and none above the ceiling, and in the modes that
+ * bound the true peak (the default true-peak filter, the look-ahead true-peak detector) the true
+ * peak at most TRUE_PEAK_TOLERANCE_DB above it; with a microphone calibration and an SPL ceiling,
+ * also the error mic's peak SPL at most the SPL ceiling. In the sample-peak modes a pass holds the
+ * sample peak only, and `capVerdict` says so ("sample peak held; true peak not limited: X dBTP").
  *
  * Ceiling: the dBFS ceiling, or, with an output calibration and a peak SPL ceiling, the stricter of
  * the two (src/engine/calibration.ts: the highest sensitivity measured across the calibrated

@@ -3,11 +3,12 @@
  * live level check (level-check.json). Plain objects only (no Node APIs, no DOM), so both hosts build the
  * same fields in the same order.
  *
- * Field order, which both files keep: the six fixed fields (FIXED_REPORT_KEYS), `reasons`, what was checked
+ * Field order, which both files keep: the six fixed fields (FIXED_REPORT_KEYS), `reasons`, `verdict`,
+ * `guarantee`, what was checked
  * (the host's `origin` fields), the rest of the check's headline figures, the host's `beforeCheck` fields,
  * `check` (the remaining result), `closedLoop`, `notes`, `history`, then the host's `tail` fields.
  */
-import type { LevelCapResult } from '../engine/level-cap-check.ts';
+import { capVerdict, limitsTruePeak, type LevelCapResult } from '../engine/level-cap-check.ts';
 
 /** The first six fields of every level-cap report, fixed names shared by the command line and the panel. */
 export const FIXED_REPORT_KEYS = ['ceilingDbfs', 'maxSamplePeakDbfs', 'maxTruePeakDbtp', 'limiterMode', 'passed', 'events'] as const;
@@ -29,6 +30,10 @@ export interface LimitsReportFields {
   /** Every event of the check (guard and limiter), time, cause, values, action. */
   events: LevelCapResult['events'];
   reasons: string[];
+  /** The one-line verdict (`capVerdict`): what held, in this limiter mode; never plain PASSED in a sample-peak mode. */
+  verdict: string;
+  /** What `passed` guarantees: 'sample-and-true-peak' (the default and the true-peak modes) or 'sample-peak'. */
+  guarantee: 'sample-and-true-peak' | 'sample-peak';
   latencySamples: number;
   maxGainReductionDb: number;
   samplesOverCeiling: number;
@@ -52,6 +57,8 @@ export interface LimitsReportParts<O extends object, B extends object, C, T exte
   moreNotes: readonly string[];
   /** Fields placed last. */
   tail?: T;
+  /** The host's own largest true peak (e.g. its closed loop), dBTP: the sample-peak modes' verdict quotes the larger. */
+  moreTruePeakDbtp?: number | null;
 }
 
 export function buildLimitsReport<O extends object, C, B extends object = object, T extends object = object>(
@@ -63,14 +70,18 @@ export function buildLimitsReport<O extends object, C, B extends object = object
     ceilingDbfs, maxSamplePeakDbfs, maxTruePeakDbtp, limiterMode, passed: _p, events, reasons: _r, latencySamples, maxGainReductionDb,
     samplesOverCeiling, nonFiniteOutputSamples, truePeakToleranceDb, ceiling, history, notes, ...check
   } = r;
+  const passed = reasons.length === 0;
+  const truePeak = Math.max(maxTruePeakDbtp, parts.moreTruePeakDbtp ?? -Infinity);
   return {
     ceilingDbfs,
     maxSamplePeakDbfs,
     maxTruePeakDbtp,
     limiterMode,
-    passed: reasons.length === 0,
+    passed,
     events,
     reasons,
+    verdict: capVerdict(passed, limiterMode, truePeak, reasons),
+    guarantee: limitsTruePeak(limiterMode) ? 'sample-and-true-peak' : 'sample-peak',
     ...parts.origin,
     latencySamples,
     maxGainReductionDb,
