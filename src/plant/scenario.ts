@@ -68,6 +68,12 @@ const sensorNoise = z.union([
   z.strictObject({ reference: num(0, 10), error: num(0, 10) }),
 ], { error: 'must be a number (RMS for both mics) or {reference, error}' });
 
+/** Output-constrained adaptation (src/dsp/output-constraint.ts): method and margin below the cap. */
+const outputConstraintFields = {
+  outputConstraint: z.enum(['rescale', 'effort', 'none'], { error: 'must be "rescale", "effort" or "none"' }).optional(),
+  outputMarginDb: num(0, 20, 'margin in dB').optional(),
+};
+
 const modelFields = {
   modelTaps: int(1, 1 << 20).optional(),
   modelPhaseErrorDeg: num(-180, 180).optional(),
@@ -84,6 +90,7 @@ const fxlmsController = z.strictObject({
   update: z.enum(['sample', 'block'], { error: 'must be "sample" or "block"' }).optional(),
   implementation: z.enum(['auto', 'js', 'wasm', 'fd'], { error: 'must be "auto", "js", "wasm" or "fd"' }).optional(),
   fdConstraint: z.enum(['alternating', 'full'], { error: 'must be "alternating" or "full"' }).optional(),
+  ...outputConstraintFields,
   ...modelFields,
 });
 
@@ -104,6 +111,7 @@ const tonalController = z.strictObject({
   harmonicsCheck: z.boolean().optional(),
   leakage: num(0, 1e6).optional(),
   regularization: z.number().min(0, 'must be ≥ 0').optional(),
+  ...outputConstraintFields,
   ...modelFields,
 });
 

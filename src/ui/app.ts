@@ -619,7 +619,7 @@ export class AncbApp extends LitElement {
       const cal = live ? this.activeOutputCal : null;
       // the cap in dB SPL: peak SPL at the most sensitive calibrated frequency bounds every frequency in the range
       const capSpl = cal ? ` = at most ${fmtDb(d.ceilingDb + maxSensitivity(cal).db + SINE_CREST_DB)} dB SPL peak at the ear (${fmtHz(cal.minHz)} … ${fmtHz(cal.maxHz)})` : '';
-      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtDb(d.maxTruePeakDb)} dBTP · cap ${fmtDb(d.ceilingDb)} dBFS sample peak${capSpl}${d.frozenByLimiter === 1 ? ' · adaptation paused while the limiter works' : ''}`);
+      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtDb(d.maxTruePeakDb)} dBTP · cap ${fmtDb(d.ceilingDb)} dBFS sample peak${capSpl}`);
       if (this.levelRunning) this.$<AncbLevelCheck>('ancb-level-check')?.showProgress(d.probeProgress);
       if (this.tone && this.calBusy === '') {
         // the tone stops by itself after TONE_MAX_S: the mode leaves 'tone' (4) without a stop from here
