@@ -14,7 +14,3 @@ export function replacePadded(dst: Float32Array | Float64Array, src: ArrayLike<n
   for (let i = n; i < count; i++) dst[i] = 0;
 }
 
-/** Multiply every entry of `a` by g in place (the output constraint's rescale of a weight vector). */
-export function scaleInPlace(a: Float32Array | Float64Array, g: number): void {
-  for (let i = 0; i < a.length; i++) a[i] = a[i]! * g;
-}

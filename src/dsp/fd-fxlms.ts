@@ -1,9 +1,9 @@
 import FFT from 'fft.js';
-import { copyPrefix, scaleInPlace } from './copy.ts';
+import { copyPrefix } from './copy.ts';
 import type { Controller } from './controller.ts';
 import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig, validateSecondaryPathModel } from './fxlms.ts';
 import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.ts';
-import { OutputConstraint } from './output-constraint.ts';
+import { OutputConstraint, PENALTY, WEIGHT_SCALE } from './output-constraint.ts';
 
 /**
  * Uniformly partitioned, overlap-save frequency-domain FxLMS / FxNLMS (Soo & Pang, IEEE TASSP 38(2),
@@ -319,12 +319,22 @@ export class FdFxlmsController implements Controller {
     this.outputConstraint.setCap(cap);
   }
 
-  /** Scale every weight by g (the output constraint's rescale): spectra, time-domain copy, norms. */
-  scaleWeights(g: number): void {
-    scaleInPlace(this.Wr, g);
-    scaleInPlace(this.Wi, g);
-    scaleInPlace(this.wTime, g);
-    scaleInPlace(this.partNorm, g * g);
+  /**
+   * Scale every weight by the output constraint's `weightScale`: spectra, time-domain copy, norms
+   * (read here: no double crosses a call).
+   */
+  private applyWeightScale(): void {
+    const g = this.outputConstraint.state[WEIGHT_SCALE]!;
+    const wr = this.Wr;
+    const wi = this.Wi;
+    for (let i = 0; i < wr.length; i++) {
+      wr[i] = wr[i]! * g;
+      wi[i] = wi[i]! * g;
+    }
+    const wt = this.wTime;
+    for (let i = 0; i < wt.length; i++) wt[i] = wt[i]! * g;
+    const pn = this.partNorm;
+    for (let j = 0; j < pn.length; j++) pn[j] = pn[j]! * g * g;
   }
 
   /** Clear the weights only (delay lines keep their history). */
@@ -409,8 +419,9 @@ export class FdFxlmsController implements Controller {
     if (n > this.partitionSize) n = this.partitionSize;
     if (!(n > 0)) return;
     this.run(ref, err, out, n);
-    const g = this.outputConstraint.afterBlock(out, n);
-    if (g < 1) this.scaleWeights(g);
+    const oc = this.outputConstraint;
+    oc.afterBlock(out, n);
+    if (oc.state[WEIGHT_SCALE]! < 1) this.applyWeightScale();
   }
 
   private run(ref: Float32Array, err: Float32Array, out: Float32Array, n: number): void {
@@ -543,7 +554,7 @@ export class FdFxlmsController implements Controller {
     // 6. Weight update, w ← (1 − μγ)^n·w − g.
     // (1 − μγ)^n, and 1 minus it computed without cancellation for the float32 kernel
     const lk = this.leak;
-    const loss = mu * this.leakage + this.outputConstraint.penalty; // per sample: μγ + λ
+    const loss = mu * this.leakage + this.outputConstraint.state[PENALTY]!; // per sample: μγ + λ
     lk[1] = loss === 0 ? 0 : -Math.expm1(n * Math.log1p(-loss));
     lk[0] = 1 - lk[1]!;
     if (this.constraint === 'full') this.updateFull();

@@ -1,6 +1,6 @@
 import type { Controller } from './controller.ts';
-import { copyPrefix, replacePadded, scaleInPlace } from './copy.ts';
-import { OutputConstraint, validateOutputConstraint, type OutputConstraintSettings } from './output-constraint.ts';
+import { copyPrefix, replacePadded } from './copy.ts';
+import { OutputConstraint, PENALTY, WEIGHT_SCALE, validateOutputConstraint, type OutputConstraintSettings } from './output-constraint.ts';
 
 /**
  * Filtered-reference LMS (FxLMS) feedforward controller: one reference, one error microphone.
@@ -103,9 +103,11 @@ export class FxlmsController implements Controller {
     this.outputConstraint.setCap(cap);
   }
 
-  /** Scale every weight by g (the output constraint's rescale). */
-  scaleWeights(g: number): void {
-    scaleInPlace(this.w, g);
+  /** Scale every weight by the output constraint's `weightScale` (read here: no double crosses a call). */
+  private applyWeightScale(): void {
+    const g = this.outputConstraint.state[WEIGHT_SCALE]!;
+    const w = this.w;
+    for (let i = 0; i < w.length; i++) w[i] = w[i]! * g;
   }
 
   reset(): void {
@@ -183,7 +185,7 @@ export class FxlmsController implements Controller {
     const normalized = this.normalized;
     const mu = this.stepSize;
     const reg = this.regularization;
-    const leak = 1 - mu * this.leakage - this.outputConstraint.penalty;
+    const leak = 1 - mu * this.leakage - this.outputConstraint.state[PENALTY]!;
     const L4 = L & ~3;
     const M4 = M & ~3;
     let px = this.px;
@@ -268,8 +270,9 @@ export class FxlmsController implements Controller {
     this.fEnergy = energy;
     this.sinceRecompute = since;
     this.filled = filled;
-    const g = this.outputConstraint.afterBlock(out, n);
-    if (g < 1) this.scaleWeights(g);
+    const oc = this.outputConstraint;
+    oc.afterBlock(out, n);
+    if (oc.state[WEIGHT_SCALE]! < 1) this.applyWeightScale();
   }
 }
 

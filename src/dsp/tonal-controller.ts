@@ -79,7 +79,7 @@
 import type { Controller } from './controller.ts';
 import { pathResponsesAt } from './path-response.ts';
 import { ToneTracker } from './tone-tracker.ts';
-import { OutputConstraint, validateOutputConstraint, type OutputConstraintSettings } from './output-constraint.ts';
+import { OutputConstraint, PENALTY, validateOutputConstraint, type OutputConstraintSettings } from './output-constraint.ts';
 
 export type FrequencySource = 'reference' | 'error' | 'fixed' | 'external';
 
@@ -424,7 +424,7 @@ export class TonalController implements Controller {
     const ramp = this.rampStep;
     const learn = this.adapt && this.hasFrequency;
     const leak = 1 - this.stepSize * this.leakage;
-    const penalty = this.outputConstraint.penalty;
+    const penalty = this.outputConstraint.state[PENALTY]!;
     const effort = this.effortScale;
     const omega = this.omega;
     const twoPi = 2 * Math.PI;

@@ -1,8 +1,8 @@
 import type { Controller } from './controller.ts';
-import { copyPrefix, replacePadded, scaleInPlace } from './copy.ts';
+import { copyPrefix, replacePadded } from './copy.ts';
 import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig, validateSecondaryPathModel } from './fxlms.ts';
 import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.ts';
-import { OutputConstraint } from './output-constraint.ts';
+import { OutputConstraint, PENALTY, WEIGHT_SCALE } from './output-constraint.ts';
 
 /**
  * Time-domain FxLMS / FxNLMS whose whole block loop runs in the WebAssembly SIMD kernel
@@ -82,9 +82,11 @@ export class WasmFxlmsController implements Controller {
     this.outputConstraint.setCap(cap);
   }
 
-  /** Scale every weight by g (the output constraint's rescale). */
-  scaleWeights(g: number): void {
-    scaleInPlace(this.w, g);
+  /** Scale every weight by the output constraint's `weightScale` (read here: no double crosses a call). */
+  private applyWeightScale(): void {
+    const g = this.outputConstraint.state[WEIGHT_SCALE]!;
+    const w = this.w;
+    for (let i = 0; i < w.length; i++) w[i] = w[i]! * g;
   }
 
   /** Taps after padding to a multiple of 16 (the kernel's loop length). */
@@ -162,7 +164,7 @@ export class WasmFxlmsController implements Controller {
     const mu = this.stepSize;
     const pr = this.params;
     // the effort penalty λ is a per-sample loss: as leakage it is λ/μ
-    const leakage = this.leakage + this.outputConstraint.penalty / mu;
+    const leakage = this.leakage + this.outputConstraint.state[PENALTY]! / mu;
     pr[0] = mu;
     pr[1] = leakage;
     pr[2] = this.regularization;
@@ -171,7 +173,8 @@ export class WasmFxlmsController implements Controller {
     this.k.tdProcess(n, this.adapt ? 1 : 0, this.normalized, this.blockUpdate);
     const ob = this.outBuf;
     for (let i = 0; i < n; i++) out[i] = ob[i]!;
-    const g = this.outputConstraint.afterBlock(out, n);
-    if (g < 1) this.scaleWeights(g);
+    const oc = this.outputConstraint;
+    oc.afterBlock(out, n);
+    if (oc.state[WEIGHT_SCALE]! < 1) this.applyWeightScale();
   }
 }

@@ -116,7 +116,7 @@ export interface OutputLimit {
    * limiter acted during more than half of the last 25 % of the run.
    */
   limited: boolean;
-  /** Fraction of the control-on time during which the limiter reduced gain by more than 0.1 dB. */
+  /** Fraction of the control-on time (by blocks) in which the output came within 0.1 dB of the cap or the limiter reduced gain by more than 0.1 dB. */
   timeAtCapFraction: number;
   /** Fraction of the control-on time during which the controller's own constraint acted. */
   constraintActiveFraction: number;
@@ -461,6 +461,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   let peakOut = 0;
   let lastProgress = -1;
   // time at the cap (limiter reducing gain) and time the controller's constraint acted, control on
+  const capNearLin = Math.pow(10, (scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS) - 0.1) / 20);
   let onSamples = 0, atCapSamples = 0, constrainedSamples = 0, lateSamples = 0, lateLimitedSamples = 0;
   const events: EngineEvent[] = [];
   const { ref, errOn, errOff, out, refNoFeedback } = loop;
@@ -482,7 +483,9 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     loop.step(n);
     if (engine.currentMode === 'control' && t >= controlStartSample) {
       onSamples += n;
-      const atCap = engine.limiter.readout.blockMaxGainReductionDb > 0.1;
+      let blockPeak = 0;
+      for (let i = 0; i < n; i++) blockPeak = Math.max(blockPeak, Math.abs(out[i]!));
+      const atCap = blockPeak >= capNearLin || engine.limiter.readout.blockMaxGainReductionDb > 0.1;
       const constrained = engine.controller.outputConstraint?.active === 1;
       if (atCap) atCapSamples += n;
       if (constrained) constrainedSamples += n;
