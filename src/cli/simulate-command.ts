@@ -5,7 +5,7 @@
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
 import { writeOutputs } from '../io/files-node.ts';
 import { encodeWavFloat32 } from '../io/wav.ts';
-import { simulate, type OutputLimit, type SimulationResult } from '../plant/simulate.ts';
+import { describeOutputLimit, simulate, type OutputLimit, type SimulationResult } from '../plant/simulate.ts';
 import { REPORT_FILE, simulationReportFiles } from '../io/report-html-node.ts';
 import { scenarioCeilingDbfs } from '../plant/scenario.ts';
 import { DEFAULT_CEILING_DBFS } from '../engine/engine.ts';
@@ -100,7 +100,7 @@ export function readableSummary(s: SimulateSummary): string {
     `convergence   ${s.convergenceS === null ? 'not reached' : `${s.convergenceS.toFixed(2)} s`}`,
     `Wiener bound  ${fmtDb(s.wienerBoundDb)}${s.wienerBoundDb === null ? (s.algorithm === 'tonal' ? '  (narrowband controller: see the per-tone figures)' : '') : s.wienerBoundIsBound ? '' : '  (not a bound: the scenario is not stationary)'}`,
     `peak output   ${s.peakOutputDbfs === null ? 'n/a' : `${s.peakOutputDbfs.toFixed(1)} dBFS`}  (ceiling ${s.outputCeilingDbfs} dBFS)`,
-    `output limit  ${outputLimitLine(s.outputLimit)}`,
+    `output limit  ${describeOutputLimit(s.outputLimit)}`,
     ...(s.amplified ? ['amplified     YES: control on is more than 1 dB louder than control off (overall or at a tone)'] : []),
     `diverged      ${s.diverged ? `YES: ${s.divergenceReasons.join('; ')}` : 'no'}`,
   ];
@@ -111,23 +111,6 @@ export function readableSummary(s: SimulateSummary): string {
   if (s.trackingErrorHz) lines.push(`tracking      RMS ${s.trackingErrorHz.rms.toFixed(2)} Hz, max ${s.trackingErrorHz.max.toFixed(2)} Hz (from first lock)`);
   for (const [k, v] of Object.entries(s.notes)) lines.push(`note          ${k}: ${v}`);
   return lines.join('\n');
-}
-
-/**
- * "output-limited: cancelling this needs about −4 dBFS; the cap is −10 dBFS, so expect about 6 dB",
- * or how much room the cap leaves. Shared by the text summary and the HTML report.
- */
-export function outputLimitLine(o: OutputLimit): string {
-  const db = (v: number): string => `${v < 0 ? '−' : ''}${Math.abs(v).toFixed(1)}`;
-  const method = `constraint "${o.method}" at ${db(o.constraintDbfs)} dBFS`;
-  const atCap = `; at the cap ${(100 * o.timeAtCapFraction).toFixed(1)} % of the time`;
-  if (o.limited) {
-    const need = o.requiredPeakDbfs === null ? 'cancelling this needs more output than the cap allows' : `cancelling this needs about ${db(o.requiredPeakDbfs)} dBFS`;
-    const expect = o.expectedDb === null ? '' : `, so expect about ${o.expectedDb.toFixed(0)} dB`;
-    return `output-limited: ${need}; the cap is ${db(o.capDbfs)} dBFS${expect} (${method}${atCap})`;
-  }
-  const need = o.requiredPeakDbfs === null ? 'needed output unknown' : `cancelling this needs about ${db(o.requiredPeakDbfs)} dBFS`;
-  return `not limited: ${need}; the cap is ${db(o.capDbfs)} dBFS (${method}${atCap})`;
 }
 
 export async function simulateCommand(argv: string[]): Promise<number> {

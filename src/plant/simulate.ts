@@ -128,6 +128,23 @@ export interface OutputLimit {
   expectedDb: number | null;
 }
 
+/**
+ * "output-limited: cancelling this needs about −4 dBFS; the cap is −10 dBFS, so expect about 6 dB",
+ * or how much room the cap leaves. Shared by the text summary, the HTML report and the panel.
+ */
+export function describeOutputLimit(o: OutputLimit): string {
+  const db = (v: number): string => `${v < 0 ? '−' : ''}${Math.abs(v).toFixed(1)}`;
+  const method = `constraint "${o.method}" at ${db(o.constraintDbfs)} dBFS`;
+  const atCap = `; at the cap ${(100 * o.timeAtCapFraction).toFixed(1)} % of the time`;
+  if (o.limited) {
+    const need = o.requiredPeakDbfs === null ? 'cancelling this needs more output than the cap allows' : `cancelling this needs about ${db(o.requiredPeakDbfs)} dBFS`;
+    const expect = o.expectedDb === null ? '' : `, so expect about ${o.expectedDb.toFixed(0)} dB`;
+    return `output-limited: ${need}; the cap is ${db(o.capDbfs)} dBFS${expect} (${method}${atCap})`;
+  }
+  const need = o.requiredPeakDbfs === null ? 'needed output unknown' : `cancelling this needs about ${db(o.requiredPeakDbfs)} dBFS`;
+  return `not limited: ${need}; the cap is ${db(o.capDbfs)} dBFS (${method}${atCap})`;
+}
+
 export interface ToneResult {
   hz: number;
   harmonic: number;
