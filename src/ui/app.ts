@@ -33,6 +33,8 @@ import { buildLevelCheckReport, levelCheckHtml, reportJson, type LiveLevelCheckR
 import type { LevelCheckRequest } from '../engine/messages.ts';
 import type { AncbTones } from './tones.ts';
 import './tones.ts';
+import './output-limit.ts';
+import type { AncbOutputLimit } from './output-limit.ts';
 import type { ScenarioEntry } from './sim-source.ts';
 import type { AncbLiveSetup } from './live-setup.ts';
 import { LIVE_MAX_QUANTUM, Session, SWITCH_CROSSFADE_MS, checkController, checkedSimScenario, defaultProbe, type ControlSettings, type ModelInfo } from '../web/session.ts';
@@ -614,6 +616,7 @@ export class AncbApp extends LitElement {
       m('err')?.show(d.errDb, NaN, NaN, nowMs);
       m('out')?.show(d.outDb, d.outPeakDb, d.ceilingDb, nowMs);
       m('gr')?.show(d.grDb, NaN, NaN, nowMs);
+      this.$<AncbOutputLimit>('ancb-output-limit')?.show(d.outputLimited);
       this.setReadout('att-now', d.attNowDb);
       this.setReadout('att-avg', d.attAvgDb);
       const cal = live ? this.activeOutputCal : null;
@@ -1051,6 +1054,8 @@ export class AncbApp extends LitElement {
                 .splNote=${errSpl ? `mic calibration, sound within ${fmtHz(errSpl.calibration.validFromHz)} … ${fmtHz(errSpl.calibration.validToHz)}` : ''}></ancb-meter>
               <ancb-meter channel="out" label="Output" note="RMS bar, peak marker (1 s hold), red: cap" .splOffsetDb=${outCal ? maxSensitivity(outCal).db : null} splPrefix="≤ "
                 .splNote=${outCal ? `at the ear, bound from the most sensitive reading (${fmtHz(maxSensitivity(outCal).hz)}); holds for ${fmtHz(outCal.minHz)} … ${fmtHz(outCal.maxHz)}` : ''}></ancb-meter>
+              <ancb-output-limit .method=${this.settings.controller.outputConstraint ?? 'rescale'}
+                @ancb-output-constraint=${(e: CustomEvent<'rescale' | 'effort' | 'none'>) => void this.onSettings(new CustomEvent('ancb-settings', { detail: { ...this.settings, controller: { ...this.settings.controller, outputConstraint: e.detail } } }))}></ancb-output-limit>
               <ancb-meter channel="gr" label="Limiter" unit="dB GR" min="0" max="24" note="gain reduction; the cap limits sample peaks, a true peak can read up to about 6 dB higher"></ancb-meter>
               <p class="small muted" id="true-peak"></p>
             </div>
