@@ -34,10 +34,11 @@ export class AncbOutputLimit extends LitElement {
         font-size: 0.9rem;
       }
       .state {
-        font-weight: 600;
+        color: var(--ancb-muted);
       }
       .state[data-limited='1'] {
-        color: var(--ancb-warn, var(--ancb-accent));
+        color: var(--ancb-warn);
+        font-weight: 600;
       }
     `,
   ];
