@@ -9,6 +9,7 @@
 import { LitElement, css, html } from 'lit';
 import { shared } from './theme.ts';
 import { emit } from './emit.ts';
+import { fmtDb } from './format.ts';
 import { DEFAULT_OUTPUT_CONSTRAINT, DEFAULT_OUTPUT_MARGIN_DB, type OutputConstraintMethod } from '../dsp/output-constraint.ts';
 
 const METHODS: { value: OutputConstraintMethod; label: string }[] = [
@@ -20,6 +21,7 @@ const METHODS: { value: OutputConstraintMethod; label: string }[] = [
 export class AncbOutputLimit extends LitElement {
   static override properties = {
     method: {},
+    capDbfs: { type: Number },
     limited: { state: true },
   };
 
@@ -44,12 +46,15 @@ export class AncbOutputLimit extends LitElement {
   ];
 
   declare method: OutputConstraintMethod;
+  /** The output cap, dBFS sample peak. */
+  declare capDbfs: number;
   declare limited: number;
 
   constructor() {
     super();
     this.method = DEFAULT_OUTPUT_CONSTRAINT;
     this.limited = 0;
+    this.capDbfs = NaN;
   }
 
   /** Per frame: 1 while the output is limited, else 0. Re-renders only on a change. */
@@ -59,11 +64,12 @@ export class AncbOutputLimit extends LitElement {
   }
 
   override render() {
+    const cap = Number.isFinite(this.capDbfs) ? `the ${fmtDb(this.capDbfs)} dBFS cap` : 'the cap';
     const text =
       this.limited === 1
         ? this.method === 'none'
-          ? 'output-limited: the limiter holds the cap'
-          : `output-limited: the controller holds its output ${DEFAULT_OUTPUT_MARGIN_DB} dB under the cap (not a fault)`
+          ? `output-limited: the limiter holds the output at ${cap}; cancelling more needs a higher cap`
+          : `output-limited: the controller keeps its output ${DEFAULT_OUTPUT_MARGIN_DB} dB under ${cap} (not a fault); cancelling more needs a higher cap`
         : 'output within the cap';
     return html`<label for="oc">Output constraint</label>
       <select id="oc" .value=${this.method} @change=${(e: Event) => emit(this, 'ancb-output-constraint', (e.target as HTMLSelectElement).value)}>
