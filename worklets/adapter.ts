@@ -128,7 +128,7 @@ export class Telemetry {
     f[M.limiterGainReductionDb] = this.gr;
     f[M.maxTruePeak] = m.maxOutTruePeak;
     f[M.guardState] = m.guardState;
-    f[M.frozenByLimiter] = m.frozenByLimiter;
+    f[M.outputLimited] = m.outputLimited;
     f[M.errOffPower] = this.errOffSum / c;
     f[M.monitorPeak] = this.monitorPk;
     f[M.adapting] = engine.controller.adapt ? 1 : 0;

@@ -5,7 +5,7 @@
 import { loadScenarioFile } from '../io/scenario-file-node.ts';
 import { InputError, OutputFolder } from '../io/files-node.ts';
 import { MAX_WAV_DATA_BYTES, openWavFile, WavFileWriter } from '../io/wav-file-node.ts';
-import { simulate, type SimulationResult } from '../plant/simulate.ts';
+import { describeOutputLimit, simulate, type OutputLimit, type SimulationResult } from '../plant/simulate.ts';
 import { REPORT_FILE, simulationReportHtml } from '../io/report-html-node.ts';
 import { scenarioCeilingDbfs } from '../plant/scenario.ts';
 import { DEFAULT_CEILING_DBFS } from '../engine/engine.ts';
@@ -43,6 +43,8 @@ export interface SimulateSummary {
   wienerBoundIsBound: boolean;
   peakOutputDbfs: number | null;
   outputCeilingDbfs: number;
+  outputLimit: OutputLimit;
+  amplified: boolean;
   diverged: boolean;
   divergenceReasons: string[];
   errorOffDbfs: number | null;
@@ -69,6 +71,8 @@ export function summarize(path: string, r: SimulationResult, st: Stamp, name: st
     wienerBoundIsBound: r.wienerBoundIsBound,
     peakOutputDbfs: r.peakOutputDbfs,
     outputCeilingDbfs: ceilingDbfs,
+    outputLimit: r.outputLimit,
+    amplified: r.amplified,
     diverged: r.diverged,
     divergenceReasons: r.divergenceReasons,
     errorOffDbfs: r.errorOffDbfs,
@@ -99,6 +103,8 @@ export function readableSummary(s: SimulateSummary): string {
     `convergence   ${s.convergenceS === null ? 'not reached' : `${s.convergenceS.toFixed(2)} s`}`,
     `Wiener bound  ${fmtDb(s.wienerBoundDb)}${s.wienerBoundDb === null ? (s.algorithm === 'tonal' ? '  (narrowband controller: see the per-tone figures)' : '') : s.wienerBoundIsBound ? '' : '  (not a bound: the scenario is not stationary)'}`,
     `peak output   ${s.peakOutputDbfs === null ? 'n/a' : `${fmtNum(s.peakOutputDbfs)} dBFS`}  (ceiling ${fmtNum(s.outputCeilingDbfs, Number.isInteger(s.outputCeilingDbfs) ? 0 : 2)} dBFS)`,
+    `output limit  ${describeOutputLimit(s.outputLimit)}`,
+    ...(s.amplified ? ['amplified     YES: control on is more than 1 dB louder than control off (overall or at a tone)'] : []),
     `diverged      ${s.diverged ? `YES: ${s.divergenceReasons.join('; ')}` : 'no'}`,
   ];
   for (const t of s.tones) lines.push(`tone          ${t.hz.toFixed(1)} Hz (source ${t.source}, harmonic ${t.harmonic}): ${fmtDb(t.attenuationDb)}`);

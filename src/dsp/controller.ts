@@ -1,3 +1,5 @@
+import type { OutputConstraint } from './output-constraint.ts';
+
 /**
  * The contract every adaptive controller in ancbench fulfils, so the engine can run any of them.
  *
@@ -35,4 +37,12 @@ export interface Controller {
    * identification during a session, or for fault injection in the simulator. Not per block.
    */
   setSecondaryPathModel?(taps: ArrayLike<number>): void;
+  /**
+   * The output cap (linear sample peak, 0 < cap ≤ 1) the controller must keep its output under
+   * (src/dsp/output-constraint.ts). The engine calls it at construction and on every cap change.
+   * Optional for test-signal sources that are not adaptive.
+   */
+  setOutputCap?(cap: number): void;
+  /** The controller's output constraint (method, level, whether it acts now). */
+  readonly outputConstraint?: OutputConstraint;
 }

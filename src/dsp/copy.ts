@@ -13,3 +13,4 @@ export function replacePadded(dst: Float32Array | Float64Array, src: ArrayLike<n
   for (let i = 0; i < n; i++) dst[i] = src[i]!;
   for (let i = n; i < count; i++) dst[i] = 0;
 }
+

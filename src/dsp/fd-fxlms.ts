@@ -3,6 +3,7 @@ import { copyPrefix } from './copy.ts';
 import type { Controller } from './controller.ts';
 import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig, validateSecondaryPathModel } from './fxlms.ts';
 import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.ts';
+import { OutputConstraint, PENALTY, WEIGHT_SCALE } from './output-constraint.ts';
 
 /**
  * Uniformly partitioned, overlap-save frequency-domain FxLMS / FxNLMS (Soo & Pang, IEEE TASSP 38(2),
@@ -47,6 +48,10 @@ import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.
  * `realTransform` fills the lower half only and it has no real inverse, so two real signals share one
  * complex transform (Z = A + iB) wherever two are due together; inverses run as forward transforms of
  * the conjugate, which spares `inverseTransform`'s division pass.
+ *
+ * Output constraint (src/dsp/output-constraint.ts), as in the reference: the effort penalty λ is
+ * added to the block's leakage loss, (1 − μγ − λ)^n; a rescale by g scales the block's output and
+ * every weight spectrum (and the time-domain master copy) by g, ‖w_j‖² by g².
  */
 export type GradientConstraint = 'full' | 'alternating';
 export type FdPrecision = 'float32' | 'float64';
@@ -82,6 +87,8 @@ export class FdFxlmsController implements Controller {
   stepSize: number;
   leakage: number;
   readonly regularization: number;
+  /** Keeps the output below the cap (the engine sets the cap). */
+  readonly outputConstraint: OutputConstraint;
   private readonly normalized: boolean;
   private readonly plan: FFT;
   private readonly KL: number;
@@ -263,6 +270,7 @@ export class FdFxlmsController implements Controller {
 
     this.modelTime = new Float32Array(this.modelTaps);
     this.setSecondaryPathModel(secondaryPathModel);
+    this.outputConstraint = new OutputConstraint(config, config.sampleRate);
   }
 
   /**
@@ -304,6 +312,29 @@ export class FdFxlmsController implements Controller {
     this.fEnergy = 0;
     this.sinceRecompute = 0;
     this.filled = 0;
+    this.outputConstraint.reset();
+  }
+
+  setOutputCap(cap: number): void {
+    this.outputConstraint.setCap(cap);
+  }
+
+  /**
+   * Scale every weight by the output constraint's `weightScale`: spectra, time-domain copy, norms
+   * (read here: no double crosses a call).
+   */
+  private applyWeightScale(): void {
+    const g = this.outputConstraint.state[WEIGHT_SCALE]!;
+    const wr = this.Wr;
+    const wi = this.Wi;
+    for (let i = 0; i < wr.length; i++) {
+      wr[i] = wr[i]! * g;
+      wi[i] = wi[i]! * g;
+    }
+    const wt = this.wTime;
+    for (let i = 0; i < wt.length; i++) wt[i] = wt[i]! * g;
+    const pn = this.partNorm;
+    for (let j = 0; j < pn.length; j++) pn[j] = pn[j]! * g * g;
   }
 
   /** Clear the weights only (delay lines keep their history). */
@@ -385,6 +416,15 @@ export class FdFxlmsController implements Controller {
   }
 
   process(ref: Float32Array, err: Float32Array, out: Float32Array, n: number): void {
+    if (n > this.partitionSize) n = this.partitionSize;
+    if (!(n > 0)) return;
+    this.run(ref, err, out, n);
+    const oc = this.outputConstraint;
+    oc.afterBlock(out, n);
+    if (oc.state[WEIGHT_SCALE]! < 1) this.applyWeightScale();
+  }
+
+  private run(ref: Float32Array, err: Float32Array, out: Float32Array, n: number): void {
     const P = this.partitionSize;
     const bins = this.bins;
     const KX = this.KX;
@@ -514,7 +554,8 @@ export class FdFxlmsController implements Controller {
     // 6. Weight update, w ← (1 − μγ)^n·w − g.
     // (1 − μγ)^n, and 1 minus it computed without cancellation for the float32 kernel
     const lk = this.leak;
-    lk[1] = this.leakage === 0 ? 0 : -Math.expm1(n * Math.log1p(-mu * this.leakage));
+    const loss = mu * this.leakage + this.outputConstraint.state[PENALTY]!; // per sample: μγ + λ
+    lk[1] = loss === 0 ? 0 : -Math.expm1(n * Math.log1p(-loss));
     lk[0] = 1 - lk[1]!;
     if (this.constraint === 'full') this.updateFull();
     else this.updateAlternating();

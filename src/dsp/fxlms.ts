@@ -1,5 +1,6 @@
 import type { Controller } from './controller.ts';
 import { copyPrefix, replacePadded } from './copy.ts';
+import { OutputConstraint, PENALTY, WEIGHT_SCALE, validateOutputConstraint, type OutputConstraintSettings } from './output-constraint.ts';
 
 /**
  * Filtered-reference LMS (FxLMS) feedforward controller: one reference, one error microphone.
@@ -25,11 +26,15 @@ import { copyPrefix, replacePadded } from './copy.ts';
  * and would make the normalised step explode; the energy is then scaled up to a full window,
  * ‖f‖²·L/k after k samples, so the first updates have their intended size.
  *
+ * Output constraint (src/dsp/output-constraint.ts): after each block, 'rescale' scales the block and
+ * w by A/peak when the output peak exceeds the constraint level A; 'effort' adds its penalty λ to
+ * the leakage, w ← (1 − μγ − λ)·w − ….
+ *
  * Storage: Float32Array delay lines, mirrored (each sample written at p and p + N) so inner products
  * never wrap. ‖f‖² is a float64 running sum of float32-rounded values (so additions and removals
  * cancel exactly) and is recomputed from the line every few thousand samples.
  */
-export interface FxlmsConfig {
+export interface FxlmsConfig extends OutputConstraintSettings {
   algorithm: 'fxlms' | 'fxnlms';
   /** Control filter length L (taps), 1 … 65536. */
   taps: number;
@@ -41,6 +46,8 @@ export interface FxlmsConfig {
   regularization?: number;
   /** Weight update per sample (default) or once per block. */
   update?: 'sample' | 'block';
+  /** Sample rate (Hz), for the timing of the output constraint's effort penalty. Default 48000. */
+  sampleRate?: number;
 }
 
 export const FXNLMS_DEFAULT_REGULARIZATION = 1e-6;
@@ -55,6 +62,8 @@ export class FxlmsController implements Controller {
   leakage: number;
   readonly regularization: number;
   readonly update: 'sample' | 'block';
+  /** Keeps the output below the cap (the engine sets the cap). */
+  readonly outputConstraint: OutputConstraint;
   private readonly normalized: boolean;
   private readonly w: Float32Array;
   private readonly grad: Float64Array;
@@ -87,6 +96,18 @@ export class FxlmsController implements Controller {
     this.nx = Math.max(this.taps, this.modelTaps);
     this.xLine = new Float32Array(2 * this.nx);
     this.fLine = new Float32Array(2 * this.taps);
+    this.outputConstraint = new OutputConstraint(config, config.sampleRate);
+  }
+
+  setOutputCap(cap: number): void {
+    this.outputConstraint.setCap(cap);
+  }
+
+  /** Scale every weight by the output constraint's `weightScale` (read here: no double crosses a call). */
+  private applyWeightScale(): void {
+    const g = this.outputConstraint.state[WEIGHT_SCALE]!;
+    const w = this.w;
+    for (let i = 0; i < w.length; i++) w[i] = w[i]! * g;
   }
 
   reset(): void {
@@ -98,6 +119,7 @@ export class FxlmsController implements Controller {
     this.pf = 0;
     this.fEnergy = 0;
     this.sinceRecompute = 0;
+    this.outputConstraint.reset();
   }
 
   setStepSize(mu: number): void {
@@ -163,7 +185,7 @@ export class FxlmsController implements Controller {
     const normalized = this.normalized;
     const mu = this.stepSize;
     const reg = this.regularization;
-    const leak = 1 - mu * this.leakage;
+    const leak = 1 - mu * this.leakage - this.outputConstraint.state[PENALTY]!;
     const L4 = L & ~3;
     const M4 = M & ~3;
     let px = this.px;
@@ -248,6 +270,9 @@ export class FxlmsController implements Controller {
     this.fEnergy = energy;
     this.sinceRecompute = since;
     this.filled = filled;
+    const oc = this.outputConstraint;
+    oc.afterBlock(out, n);
+    if (oc.state[WEIGHT_SCALE]! < 1) this.applyWeightScale();
   }
 }
 
@@ -267,4 +292,5 @@ export function validateFxlmsConfig(c: FxlmsConfig): void {
   if (c.leakage !== undefined && !(c.leakage >= 0 && Number.isFinite(c.leakage))) throw new RangeError(`controller.leakage must be ≥ 0, got ${c.leakage}`);
   if (c.regularization !== undefined && !(c.regularization > 0 && Number.isFinite(c.regularization))) throw new RangeError(`controller.regularization must be > 0, got ${c.regularization}`);
   if (c.update !== undefined && c.update !== 'sample' && c.update !== 'block') throw new RangeError(`controller.update must be "sample" or "block", got ${String(c.update)}`);
+  validateOutputConstraint(c);
 }

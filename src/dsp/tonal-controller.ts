@@ -56,6 +56,19 @@
  * microphone (g_k Ŝ_k W_k) are demodulated/smoothed through two one-pole low-passes of 50 ms each;
  * the disturbance estimate is their difference D̂ = Ê − Ŷ. See `readHarmonic`.
  *
+ * Output constraint (src/dsp/output-constraint.ts; the engine sets the cap, A is the constraint level):
+ * - 'rescale' budgets the output across harmonics so that Σ_k g_k|W_k| ≤ A (which bounds the peak of
+ *   their sum by A). With u_k = |D̂_k|/|Ŝ_k| the amplitude harmonic k needs to cancel its disturbance,
+ *   the residual power Σ_k (|D_k| − |S_k|a_k)² is least under Σ a_k ≤ A when a_k = clamp(u_k −
+ *   ν/|Ŝ_k|², 0, u_k) with ν ≥ 0 chosen so the budget is met (Karush–Kuhn–Tucker; calculated): the
+ *   harmonics that buy the most attenuation per unit of output (largest |S_k|·|D_k|) keep theirs,
+ *   the others give up first. At each block end where the amplitudes sum to more than A, each W_k is
+ *   scaled down to its a_k (never up), and a block whose output peak exceeds A is scaled to A.
+ * - 'effort' adds the penalty as a per-harmonic leakage λ·S̄²/(δ + |Ŝ_k|²) (S̄² the mean |Ŝ_k|²
+ *   over the active harmonics): the averaged update then settles at W_k = −Ŝ_k*D_k/(|Ŝ_k|² + β),
+ *   β = 2λS̄²/μ, the effort-weighted optimum (Elliott, 2001, ch. 4), which also favours harmonics
+ *   with a large path gain.
+ *
  * Host sequence: construct once (validates, allocates); per block call `process(ref, err, out, n)`
  * (in 'external' mode call `setFrequencyHz` before it); `setFrequencySource`, `setHarmonics` and
  * `adapt` may change between blocks; read `readHarmonic(k, readout)` for k = 1 … harmonics,
@@ -66,10 +79,11 @@
 import type { Controller } from './controller.ts';
 import { pathResponsesAt } from './path-response.ts';
 import { ToneTracker } from './tone-tracker.ts';
+import { OutputConstraint, PENALTY, validateOutputConstraint, type OutputConstraintSettings } from './output-constraint.ts';
 
 export type FrequencySource = 'reference' | 'error' | 'fixed' | 'external';
 
-export interface TonalControllerConfig {
+export interface TonalControllerConfig extends OutputConstraintSettings {
   /** Sample rate (Hz), 4000 … 384000. */
   sampleRate: number;
   /** Largest block `process` will receive, 1 … 65536. */
@@ -159,6 +173,8 @@ export class TonalController implements Controller {
   readonly modelDelay: number;
   /** Delayed-LMS stability bound on stepSize for a perfect model: 4·sin(π / (2(2Δ + 1))). */
   readonly stepSizeLimit: number;
+  /** Keeps the output below the cap (the engine sets the cap). */
+  readonly outputConstraint: OutputConstraint;
 
   private readonly model: Float64Array;
   private readonly tracker: ToneTracker;
@@ -192,6 +208,11 @@ export class TonalController implements Controller {
   private readonly yMeter = new Float64Array(4 * MAX_HARMONICS);
   private readonly omegaK = new Float64Array(MAX_HARMONICS);
   private readonly response = new Float64Array(2 * MAX_HARMONICS);
+  /** Effort penalty weight per harmonic, S̄²/(δ + |Ŝ_k|²). */
+  private readonly effortScale = new Float64Array(MAX_HARMONICS);
+  /** Budget scratch: needed amplitude u_k and |Ŝ_k|² of each harmonic. */
+  private readonly need = new Float64Array(MAX_HARMONICS);
+  private readonly pathGainSq = new Float64Array(MAX_HARMONICS);
   private readonly estimate = new Float64Array(5);
   private readonly rampStep: number;
   private readonly meterAlpha: number;
@@ -246,6 +267,7 @@ export class TonalController implements Controller {
     }
     const hc = config.harmonicsCheck ?? false;
     if (typeof hc !== 'boolean') fail('harmonicsCheck', 'a boolean', hc);
+    validateOutputConstraint(config);
 
     this.sampleRate = fs;
     this.maxBlockSize = mb;
@@ -265,7 +287,12 @@ export class TonalController implements Controller {
     this.harmonicCount = h;
     this.rampStep = 1 / Math.max(1, Math.round(RAMP_S * fs));
     this.meterAlpha = 1 - Math.exp(-1 / (METER_TIME_S * fs));
+    this.outputConstraint = new OutputConstraint(config, fs);
     this.reset();
+  }
+
+  setOutputCap(cap: number): void {
+    this.outputConstraint.setCap(cap);
   }
 
   /** The frequency source in use (a pending change shows after the next block). */
@@ -335,6 +362,7 @@ export class TonalController implements Controller {
     this.omega = 0;
     this.chooseFrequency();
     for (let k = 0; k < MAX_HARMONICS; k++) this.gain[k] = this.target[k]!;
+    this.outputConstraint.reset();
   }
 
   /**
@@ -396,6 +424,8 @@ export class TonalController implements Controller {
     const ramp = this.rampStep;
     const learn = this.adapt && this.hasFrequency;
     const leak = 1 - this.stepSize * this.leakage;
+    const penalty = this.outputConstraint.state[PENALTY]!;
+    const effort = this.effortScale;
     const omega = this.omega;
     const twoPi = 2 * Math.PI;
     const reconstruct = this.source === 'error';
@@ -433,8 +463,10 @@ export class TonalController implements Controller {
           yHat += g * (a * rc + b * rs);
           if (learn && t === 1) {
             const m = muK[k]! * e;
-            wA[k] = leak * a - m * rc;
-            wB[k] = leak * b - m * rs;
+            const pk = penalty * effort[k]!;
+            const lk = leak - (pk < 0.5 ? pk : 0.5);
+            wA[k] = lk * a - m * rc;
+            wB[k] = lk * b - m * rs;
           }
           // meters: Ŷ = g Ŝ W (a phasor already) and Ê = demodulated error, each through two one-poles
           const o = 4 * k;
@@ -460,6 +492,8 @@ export class TonalController implements Controller {
       if (phase >= twoPi) phase -= twoPi;
     }
     this.phase = phase;
+    this.outputConstraint.afterBlock(out, len);
+    if (this.outputConstraint.method === 'rescale') this.budget(H);
 
     if (this.source === 'reference') this.tracker.process(ref, len);
     else if (reconstruct) this.tracker.process(dHat, len);
@@ -503,6 +537,63 @@ export class TonalController implements Controller {
     out.counterPhaseDeg = (Math.atan2(yi * dr - yr * di, yr * dr + yi * di) * 180) / Math.PI;
     out.attenuationDb = 20 * Math.log10((dAmp + 1e-30) / (eAmp + 1e-30));
     return true;
+  }
+
+  /**
+   * The rescale budget (see the module comment): when Σ g_k|W_k| exceeds the constraint level A,
+   * scale each W_k down to a_k = clamp(u_k − ν/|Ŝ_k|², 0, u_k), ν ≥ 0 found by bisection so that
+   * Σ a_k = min(A, Σ u_k). No allocation.
+   */
+  private budget(H: number): void {
+    const A = this.outputConstraint.level;
+    if (!(A < Infinity)) return;
+    const wA = this.wA;
+    const wB = this.wB;
+    const gain = this.gain;
+    let sum = 0;
+    for (let k = 0; k < H; k++) sum += gain[k]! * Math.hypot(wA[k]!, wB[k]!);
+    if (!(sum > A)) return;
+    const need = this.need;
+    const s2 = this.pathGainSq;
+    let needSum = 0;
+    let nuHi = 0;
+    for (let k = 0; k < H; k++) {
+      const o = 4 * k;
+      const p = this.sRe[k]! * this.sRe[k]! + this.sIm[k]! * this.sIm[k]!;
+      const dAmp = Math.hypot(this.eMeter[o + 2]! - this.yMeter[o + 2]!, this.eMeter[o + 3]! - this.yMeter[o + 3]!);
+      const u = gain[k]! > 0 && p > 0 ? dAmp / Math.sqrt(p) : 0;
+      need[k] = u;
+      s2[k] = p;
+      needSum += u;
+      if (u * p > nuHi) nuHi = u * p;
+    }
+    let nu = 0;
+    if (needSum > A) {
+      // Σ max(0, u_k − ν/s2_k) falls from needSum (ν = 0) to 0 (ν = max u_k·s2_k)
+      let lo = 0;
+      let hi = nuHi;
+      for (let it = 0; it < 50; it++) {
+        const mid = 0.5 * (lo + hi);
+        let f = 0;
+        for (let k = 0; k < H; k++) {
+          const a = need[k]! - (s2[k]! > 0 ? mid / s2[k]! : need[k]!);
+          if (a > 0) f += a;
+        }
+        if (f > A) lo = mid;
+        else hi = mid;
+      }
+      nu = hi;
+    }
+    for (let k = 0; k < H; k++) {
+      let a = need[k]! - (nu > 0 ? (s2[k]! > 0 ? nu / s2[k]! : need[k]!) : 0);
+      if (a < 0) a = 0;
+      const c = gain[k]! * Math.hypot(wA[k]!, wB[k]!);
+      if (c > a) {
+        const r = c > 0 ? a / c : 0;
+        wA[k] = wA[k]! * r;
+        wB[k] = wB[k]! * r;
+      }
+    }
   }
 
   private applyPending(): void {
@@ -551,6 +642,7 @@ export class TonalController implements Controller {
     for (let k = 0; k < MAX_HARMONICS; k++) {
       this.target[k] = k < this.harmonicCount && (k + 1) * this.f0 < NYQUIST_GUARD * fs ? 1 : 0;
     }
+    this.updateEffortScale();
     const drift = Math.abs(this.omega - this.omegaEval) * MAX_HARMONICS * this.model.length;
     if (!(drift <= PHASE_TOLERANCE)) {
       this.omegaEval = this.omega;
@@ -563,6 +655,23 @@ export class TonalController implements Controller {
         this.sIm[k] = si;
         this.muK[k] = this.stepSize / (this.regularization + sr * sr + si * si);
       }
+      this.updateEffortScale();
+    }
+  }
+
+  /** S̄²/(δ + |Ŝ_k|²) per harmonic, S̄² the mean |Ŝ_k|² over the harmonics in use. */
+  private updateEffortScale(): void {
+    let mean = 0;
+    let count = 0;
+    for (let k = 0; k < MAX_HARMONICS; k++) {
+      if (this.target[k] === 1) {
+        mean += this.sRe[k]! * this.sRe[k]! + this.sIm[k]! * this.sIm[k]!;
+        count++;
+      }
+    }
+    mean = count > 0 ? mean / count : 0;
+    for (let k = 0; k < MAX_HARMONICS; k++) {
+      this.effortScale[k] = mean / (this.regularization + this.sRe[k]! * this.sRe[k]! + this.sIm[k]! * this.sIm[k]!);
     }
   }
 }

@@ -2,6 +2,7 @@ import type { Controller } from './controller.ts';
 import { copyPrefix, replacePadded } from './copy.ts';
 import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig, validateSecondaryPathModel } from './fxlms.ts';
 import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.ts';
+import { OutputConstraint, PENALTY, WEIGHT_SCALE } from './output-constraint.ts';
 
 /**
  * Time-domain FxLMS / FxNLMS whose whole block loop runs in the WebAssembly SIMD kernel
@@ -13,6 +14,11 @@ import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.
  * are left out of ‖f‖². Each controller owns one module instance and its linear memory; the views
  * below are created after the kernel has laid out (and grown) that memory, and never change after.
  * Per block the host copies the n input samples in and the n output samples out (no allocation).
+ *
+ * Output constraint (src/dsp/output-constraint.ts), as in the reference: the effort penalty λ enters
+ * the kernel as extra leakage (γ + λ/μ, so the per-sample loss is μγ + λ); a rescale scales the
+ * block's output and the L weights in the kernel's memory from here (the weights are current between
+ * blocks: the kernel applies its last pending update at the end of the block).
  */
 export class WasmFxlmsController implements Controller {
   readonly kind: 'fxlms' | 'fxnlms';
@@ -25,6 +31,8 @@ export class WasmFxlmsController implements Controller {
   readonly regularization: number;
   readonly update: 'sample' | 'block';
   readonly maxBlockSize: number;
+  /** Keeps the output below the cap (the engine sets the cap). */
+  readonly outputConstraint: OutputConstraint;
   private readonly k: FxlmsKernelExports;
   private readonly w: Float32Array;
   private readonly wPadded: Float32Array;
@@ -67,6 +75,18 @@ export class WasmFxlmsController implements Controller {
     this.errBuf = new Float32Array(buf, k.tdErr(), maxBlockSize);
     this.outBuf = new Float32Array(buf, k.tdOut(), maxBlockSize);
     this.params = new Float64Array(buf, k.tdParams(), 4);
+    this.outputConstraint = new OutputConstraint(config, config.sampleRate);
+  }
+
+  setOutputCap(cap: number): void {
+    this.outputConstraint.setCap(cap);
+  }
+
+  /** Scale every weight by the output constraint's `weightScale` (read here: no double crosses a call). */
+  private applyWeightScale(): void {
+    const g = this.outputConstraint.state[WEIGHT_SCALE]!;
+    const w = this.w;
+    for (let i = 0; i < w.length; i++) w[i] = w[i]! * g;
   }
 
   /** Taps after padding to a multiple of 16 (the kernel's loop length). */
@@ -76,6 +96,7 @@ export class WasmFxlmsController implements Controller {
 
   reset(): void {
     this.k.tdReset();
+    this.outputConstraint.reset();
   }
 
   /** Clear the weights only (delay lines keep their history). */
@@ -142,13 +163,18 @@ export class WasmFxlmsController implements Controller {
     }
     const mu = this.stepSize;
     const pr = this.params;
+    // the effort penalty λ is a per-sample loss: as leakage it is λ/μ
+    const leakage = this.leakage + this.outputConstraint.state[PENALTY]! / mu;
     pr[0] = mu;
-    pr[1] = this.leakage;
+    pr[1] = leakage;
     pr[2] = this.regularization;
     // 1 − (1 − μγ)^n, passed as a loss so float32 does not round the factor near 1 (see asm/fxlms.ts)
-    pr[3] = this.leakage === 0 ? 0 : -Math.expm1(n * Math.log1p(-mu * this.leakage));
+    pr[3] = leakage === 0 ? 0 : -Math.expm1(n * Math.log1p(-mu * leakage));
     this.k.tdProcess(n, this.adapt ? 1 : 0, this.normalized, this.blockUpdate);
     const ob = this.outBuf;
     for (let i = 0; i < n; i++) out[i] = ob[i]!;
+    const oc = this.outputConstraint;
+    oc.afterBlock(out, n);
+    if (oc.state[WEIGHT_SCALE]! < 1) this.applyWeightScale();
   }
 }

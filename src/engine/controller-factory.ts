@@ -4,7 +4,11 @@ import type { FxlmsConfig } from '../dsp/fxlms.ts';
 import { buildFxlmsController, type FxlmsImplementationSettings } from './implementation.ts';
 import { TonalController, type TonalControllerConfig } from '../dsp/tonal-controller.ts';
 
-/** The narrowband controller's settings as a configuration names them (the engine supplies the rest). */
+/**
+ * The narrowband controller's settings as a configuration names them (the engine supplies the rest).
+ * Every configuration may carry `outputConstraint` and `outputMarginDb` (src/dsp/output-constraint.ts);
+ * the engine passes the cap itself.
+ */
 export type TonalSettings = { algorithm: 'tonal' } & Omit<TonalControllerConfig, 'sampleRate' | 'maxBlockSize' | 'secondaryPathModel'>;
 
 /** Every controller configuration the engine can run: a union discriminated by `algorithm`. */
@@ -23,7 +27,7 @@ export function createController(
     case 'fxlms':
     case 'fxnlms':
       // time domain in TypeScript or wasm SIMD, or partitioned frequency domain: see implementation.ts
-      return buildFxlmsController(config, secondaryPathModel, maxBlockSize);
+      return buildFxlmsController({ ...config, sampleRate }, secondaryPathModel, maxBlockSize);
     case 'tonal': {
       const { algorithm: _a, ...rest } = config;
       return new TonalController({ ...rest, sampleRate, maxBlockSize, secondaryPathModel });

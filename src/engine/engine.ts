@@ -18,8 +18,11 @@ import { DivergenceGuard, GuardBlockInfo, type GuardConfig } from './guard.ts';
  * starts and stops are ramped.
  *
  * The high-pass and the limiter sit inside the acoustic loop: their delay is part of the secondary
- * path (identify the path with them in place), and while the limiter reduces gain the effective
- * secondary path changes, so adaptation is frozen while gain reduction exceeds `freezeAboveDb`.
+ * path (identify the path with them in place). While the limiter reduces gain the effective secondary
+ * path differs from the model, so the controllers keep their own output below the cap instead
+ * (`controller.outputConstraint`, src/dsp/output-constraint.ts): the engine hands them the ceiling at
+ * construction and on every change. Adaptation is never frozen because the output is limited: a
+ * freeze would hold the weights that drive the output into the limiter, and so sustain itself.
  */
 export type EngineMode = 'idle' | 'control' | 'muted';
 
@@ -38,8 +41,6 @@ export interface LimiterSettings {
   truePeakFilter?: boolean;
   attackMs?: number;
   releaseMs?: number;
-  /** Adaptation is frozen while gain reduction exceeds this (dB). Default 0.5 dB. */
-  freezeAboveDb?: number;
 }
 
 export interface EngineConfig {
@@ -75,7 +76,6 @@ export interface EngineConfig {
 export const DEFAULT_CEILING_DBFS = -6;
 export const DEFAULT_RAMP_MS = 50;
 export const DEFAULT_HIGHPASS_HZ = 20;
-export const DEFAULT_FREEZE_ABOVE_DB = 0.5;
 /** Default crossfade between controllers, ms. */
 export const DEFAULT_CROSSFADE_MS = 200;
 
@@ -119,8 +119,11 @@ export class EngineMeters {
   weightNormSquared = 0;
   /** Guard state: 0 running, 1 frozen, 2 muted. */
   guardState = 0;
-  /** 1 while adaptation is frozen because the limiter is reducing gain. */
-  frozenByLimiter = 0;
+  /**
+   * 1 while the output is limited: the controller's output constraint acts (within the last 100 ms)
+   * or the limiter has held the output at the cap for the guard's hold time. Not a fault.
+   */
+  outputLimited = 0;
   /** Events recorded since construction (including ones since overwritten in the ring). */
   events = 0;
 }
@@ -142,7 +145,6 @@ export class Engine {
   private readonly info = new GuardBlockInfo();
   private mode: EngineMode;
   private userAdapt = true;
-  private readonly freezeAboveDb: number;
   private readonly ctrlOut: Float32Array;
   private readonly prevOut: Float32Array;
   private prevOutN = 0;
@@ -176,13 +178,14 @@ export class Engine {
     if (!(rampMs >= 0 && rampMs <= 5000)) throw new RangeError(`rampMs must be from 0 to 5000 ms, got ${rampMs}`);
     const hp = config.highPassHz ?? DEFAULT_HIGHPASS_HZ;
     if (!(hp >= 0 && hp < sampleRate / 4)) throw new RangeError(`highPassHz must be from 0 to ${sampleRate / 4} Hz, got ${hp}`);
-    this.freezeAboveDb = lim.freezeAboveDb ?? DEFAULT_FREEZE_ABOVE_DB;
-    if (!(this.freezeAboveDb > 0)) throw new RangeError(`limiter.freezeAboveDb must be > 0 dB, got ${this.freezeAboveDb}`);
     this.sampleRate = sampleRate;
     this.maxBlockSize = maxBlockSize;
     this.controller = createController(config.controller, config.secondaryPathModel, maxBlockSize, sampleRate);
     this.standby = config.standbyController ? createController(config.standbyController, config.secondaryPathModel, maxBlockSize, sampleRate) : null;
     if (this.standby) this.standby.adapt = false;
+    const cap = Math.pow(10, ceilingDbfs / 20);
+    this.controller.setOutputCap?.(cap);
+    this.standby?.setOutputCap?.(cap);
     this.limiter = new OutputLimiter({
       sampleRate,
       maxBlockSize,
@@ -288,7 +291,10 @@ export class Engine {
     }
     if (!Number.isNaN(this.pendingCeilingDb)) {
       this.limiter.setCeilingDbfs(this.pendingCeilingDb);
-      this.meters.ceiling = Math.pow(10, this.pendingCeilingDb / 20);
+      const cap = Math.pow(10, this.pendingCeilingDb / 20);
+      this.meters.ceiling = cap;
+      this.controller.setOutputCap?.(cap);
+      this.standby?.setOutputCap?.(cap);
       this.pendingCeilingDb = NaN;
     }
     if (this.pendingAdapt >= 0) {
@@ -345,10 +351,9 @@ export class Engine {
       const action = guard.check(info);
       if (action === ACTION.resetWeights || action === ACTION.mute) this.controller.reset();
     }
-    const limiterFreeze = lim.readout.gainReductionDb > this.freezeAboveDb;
     const guardAllowsAdapt = guard ? guard.adaptationAllowed : true;
     const guardAllowsOutput = guard ? guard.outputAllowed : true;
-    this.controller.adapt = this.userAdapt && guardAllowsAdapt && !limiterFreeze;
+    this.controller.adapt = this.userAdapt && guardAllowsAdapt;
 
     // Output gate: the ramp fades in when control is on and the guard allows output, out otherwise.
     const wantOn = this.mode === 'control' && guardAllowsOutput;
@@ -467,7 +472,8 @@ export class Engine {
     m.nonFiniteOut = ro.nonFiniteCount;
     m.weightNormSquared = this.controller.weightNormSquared();
     m.guardState = guard ? (guard.state === 'running' ? 0 : guard.state === 'frozen' ? 1 : 2) : 0;
-    m.frozenByLimiter = limiterFreeze ? 1 : 0;
+    const oc = this.controller.outputConstraint;
+    m.outputLimited = (oc !== undefined && oc.active === 1) || (guard !== null && guard.outputLimited) ? 1 : 0;
     this.eventsSeen = this.events.pushed;
     m.events = this.eventsSeen;
   }

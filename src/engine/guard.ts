@@ -12,7 +12,13 @@
  * - error-rise: mean-square error over consecutive sub-windows of windowMs above
  *   baseline·10^(riseDb/10) for holdMs (the baseline, the control-off error power, comes from the
  *   engine; NaN or ≤ 0 disables the check for that block).
- * - output-at-ceiling (per block): limiter gain reduction above gainReductionDb for holdMs.
+ * - output-at-ceiling (per block): limiter gain reduction above gainReductionDb for holdMs. By
+ *   default this is the "output-limited" state (action 'none', read `outputLimited`), not a fault:
+ *   the controller's own output constraint (src/dsp/output-constraint.ts) brings the output back
+ *   under the cap, and freezing adaptation here would keep the weights that drive the output into
+ *   the limiter, a lock-up the freeze itself sustains. Real divergence is caught by the error-rise,
+ *   weights and non-finite detectors; a user may still set this detector to mute, to catch a howl
+ *   that the limiter holds at the cap.
  * - input-clipping: |x| ≥ level for `consecutive` samples in a row (ref or err).
  * - dead-microphone: the same value (digital silence included) for holdMs (ref or err).
  * - limiter-engaged (per block, information only): gain reduction first above its threshold.
@@ -77,7 +83,7 @@ export interface GuardConfig {
     holdMs?: number;
   };
   outputAtCeiling?: DetectorBase & {
-    /** Default 'freeze-adaptation'. */
+    /** Default 'none' (the output-limited state, recorded only; see the module comment). */
     action?: EventAction;
     /**
      * Limiter gain reduction threshold, dB, 0.1 … 60. Default 1: a howl settles where the limiter's
@@ -296,7 +302,7 @@ export class DivergenceGuard {
 
     const ce = section('outputAtCeiling', config.outputAtCeiling);
     this.ceOn = bool('outputAtCeiling.enabled', ce.enabled, true);
-    this.ceAction = action('outputAtCeiling.action', ce.action, 'freeze-adaptation');
+    this.ceAction = action('outputAtCeiling.action', ce.action, 'none');
     this.ceThresholdDb = num('outputAtCeiling.gainReductionDb', ce.gainReductionDb, 1, 0.1, 60, ' dB');
     this.ceHoldSamples = Math.round((num('outputAtCeiling.holdMs', ce.holdMs, 60, 1, 60000, ' ms') * fs) / 1000);
 
@@ -361,6 +367,15 @@ export class DivergenceGuard {
   /** The output may sound (state not muted). */
   get outputAllowed(): boolean {
     return this.stateCode !== STATE_MUTED;
+  }
+
+  /**
+   * Output-limited: the limiter's gain reduction has stayed above the output-at-ceiling threshold for
+   * its hold time (up to the last `check`). Information, not a fault, unless that detector's action
+   * says otherwise.
+   */
+  get outputLimited(): boolean {
+    return this.ceOn && this.ceilingRun >= this.ceHoldSamples;
   }
 
   /** The state changed during the last `check` or `acknowledge` call. */

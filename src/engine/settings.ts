@@ -16,6 +16,7 @@
  * Plain data and plain functions: no zod here (the live worklet bundle imports this file).
  */
 import { rangeMessage } from '../dsp/check.ts';
+import { DEFAULT_OUTPUT_CONSTRAINT, DEFAULT_OUTPUT_MARGIN_DB, OUTPUT_CONSTRAINT_METHODS } from '../dsp/output-constraint.ts';
 
 interface SettingBase {
   /** What the setting does, in the words the panel and the docs show. */
@@ -85,6 +86,8 @@ export const FXLMS_SETTINGS = {
   update: { type: 'enum', values: ['sample', 'block'], default: 'sample', live: false, description: 'weight update every sample or once per block' },
   implementation: { type: 'enum', values: ['auto', 'js', 'wasm', 'fd'], default: 'auto', live: false, description: 'what runs the filter: chosen from the filter lengths and the platform, or forced' },
   fdConstraint: { type: 'enum', values: ['alternating', 'full'], default: 'full', live: false, description: 'gradient constraint of the frequency-domain implementation' },
+  outputConstraint: { type: 'enum', values: OUTPUT_CONSTRAINT_METHODS, default: DEFAULT_OUTPUT_CONSTRAINT, live: false, description: 'how the controller keeps its output within the cap: rescale the weights (Qiu & Hansen 2001), penalise output power (effort weighting), or leave it to the limiter' },
+  outputMarginDb: { type: 'number', unit: 'dB', min: 0, max: 20, default: DEFAULT_OUTPUT_MARGIN_DB, live: false, description: 'the constraint level sits this far below the output cap' },
 } as const satisfies SettingsTable;
 
 /** The tone follower: narrowband FxLMS at a tracked fundamental and its harmonics (src/dsp/tonal-controller.ts). */
@@ -102,6 +105,8 @@ export const TONAL_SETTINGS = {
   harmonicsCheck: { type: 'boolean', default: false, live: false, description: 'look for a fundamental below the strongest line' },
   leakage: { type: 'number', unit: '', min: 0, max: 1e6, default: 0, live: true, description: 'leakage γ: each update scales the weights by 1 − μγ' },
   regularization: { type: 'number', unit: 'model gain²', min: 0, max: 1e6, live: false, description: 'regularisation δ of the per-harmonic normalisation (default 1e-3·Σŝ²)' },
+  outputConstraint: { type: 'enum', values: OUTPUT_CONSTRAINT_METHODS, default: DEFAULT_OUTPUT_CONSTRAINT, live: false, description: 'how the controller keeps its output within the cap: share the allowed output between harmonics where it buys most attenuation and rescale, penalise output power (effort weighting), or leave it to the limiter' },
+  outputMarginDb: { type: 'number', unit: 'dB', min: 0, max: 20, default: DEFAULT_OUTPUT_MARGIN_DB, live: false, description: 'the constraint level sits this far below the output cap' },
 } as const satisfies SettingsTable;
 
 /**

@@ -16,7 +16,7 @@
  */
 import type { RecordingAnalysis } from '../analysis/recording-analysis.ts';
 import { pathFrequencyResponse } from '../analysis/path-model.ts';
-import type { SimulationResult } from '../plant/simulate.ts';
+import { describeOutputLimit, type SimulationResult } from '../plant/simulate.ts';
 
 export interface ReportAssets {
   /** uPlot's IIFE build (defines the global `uPlot`). */
@@ -431,7 +431,7 @@ export type SimulationReportSummary = Pick<
   SimulationResult,
   | 'algorithm' | 'sampleRate' | 'durationS' | 'attenuationDb' | 'convergenceS' | 'wienerBoundDb' | 'wienerBoundIsBound'
   | 'peakOutputDbfs' | 'diverged' | 'divergenceReasons' | 'errorOffDbfs' | 'errorOnDbfs' | 'notes'
-> & {
+> & Partial<Pick<SimulationResult, 'outputLimit' | 'amplified'>> & {
   scenario: string;
   name: string | null;
   outputCeilingDbfs: number;
@@ -498,6 +498,8 @@ export function renderSimulationReport(
               ] as [string, string][])
             : []),
           ['peak output', `${fmt(s.peakOutputDbfs, 1)} dBFS (ceiling ${s.outputCeilingDbfs} dBFS)`],
+          ...(s.outputLimit ? ([['output limit', describeOutputLimit(s.outputLimit)]] as [string, string][]) : []),
+          ...(s.amplified ? ([['amplified', 'yes: control on is more than 1 dB louder than control off (overall or at a tone)']] as [string, string][]) : []),
           ['diverged', s.diverged ? `yes: ${s.divergenceReasons.join('; ')}` : 'no'],
           ['controller', `${s.algorithm}, ${s.sampleRate} Hz, ${s.durationS.toFixed(2)} s`],
         ],

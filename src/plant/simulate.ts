@@ -27,6 +27,8 @@ import { imperfectModel } from './secondary-model.ts';
 import { TonalController } from '../dsp/tonal-controller.ts';
 import { describeImplementation } from '../engine/implementation.ts';
 import type { Controller } from '../dsp/controller.ts';
+import { DEFAULT_OUTPUT_CONSTRAINT, DEFAULT_OUTPUT_MARGIN_DB } from '../dsp/output-constraint.ts';
+import { pathResponseAt } from '../dsp/path-response.ts';
 
 export interface SimulateOptions {
   /** Decoded WAV sources (mono, at the scenario's sample rate), keyed by the scenario's `file`. */
@@ -70,6 +72,11 @@ export interface SimulationResult {
   /** False when the scenario is not stationary (drifting tones): the figure is then not a bound. */
   wienerBoundIsBound: boolean;
   peakOutputDbfs: number | null;
+  /** What the output cap does to the result (see OutputLimit). */
+  outputLimit: OutputLimit;
+  /** True when control on is more than 1 dB louder than control off at the error mic, overall or at any reported tone. */
+  amplified: boolean;
+  /** Real divergence only (error rise, unbounded weights, non-finite values, a howl): being output-limited is not. */
   diverged: boolean;
   divergenceReasons: string[];
   /** AES17 RMS levels of the error mic over the steady-state window, control off and on. */
@@ -94,6 +101,55 @@ export interface SimulationResult {
   trueSecondaryPath: Float64Array;
   timeline: { timeS: Float64Array; attenuationDb: Float64Array; offDbfs: Float64Array; onDbfs: Float64Array };
   signals?: SimulationSignals;
+}
+
+/**
+ * The output cap and what it costs. `requiredPeakDbfs` is the peak output of the unconstrained
+ * optimum: for FxLMS the output of the Wiener filter (the same solve as the bound) on the control-off
+ * reference; for the narrowband controller Σ_k |D_k|/|S(kω)| over the tonal components (the
+ * amplitude each needs at the controller output, summed: the peak of their sum at most, exactly it
+ * for one tone). null, with a note, where it cannot be computed.
+ */
+export interface OutputLimit {
+  /** The output cap (limiter ceiling), dBFS sample peak. */
+  capDbfs: number;
+  /** The controller's constraint level, dBFS: the cap minus the margin. */
+  constraintDbfs: number;
+  /** `controller.outputConstraint` in force. */
+  method: string;
+  requiredPeakDbfs: number | null;
+  /**
+   * The required peak exceeds the constraint level; where it is unknown, the constraint or the
+   * limiter acted during more than half of the last 25 % of the run.
+   */
+  limited: boolean;
+  /** Fraction of the control-on time (by blocks) in which the output came within 0.1 dB of the cap or the limiter reduced gain by more than 0.1 dB. */
+  timeAtCapFraction: number;
+  /** Fraction of the control-on time during which the controller's own constraint acted. */
+  constraintActiveFraction: number;
+  /**
+   * When limited: the attenuation to expect within the constraint, −20·log10(1 − A/required) (the
+   * constrained optimum for one tone, 20·log10(|D|/(|D| − |S|·A)); calculated), capped by the Wiener
+   * bound; null otherwise.
+   */
+  expectedDb: number | null;
+}
+
+/**
+ * "output-limited: cancelling this needs about −4 dBFS; the cap is −10 dBFS, so expect about 6 dB",
+ * or how much room the cap leaves. Shared by the text summary, the HTML report and the panel.
+ */
+export function describeOutputLimit(o: OutputLimit): string {
+  const db = (v: number): string => `${v < 0 ? '−' : ''}${Math.abs(v).toFixed(1)}`;
+  const method = `constraint "${o.method}" at ${db(o.constraintDbfs)} dBFS`;
+  const atCap = `; at the cap ${(100 * o.timeAtCapFraction).toFixed(1)} % of the time`;
+  if (o.limited) {
+    const need = o.requiredPeakDbfs === null ? 'cancelling this needs more output than the cap allows' : `cancelling this needs about ${db(o.requiredPeakDbfs)} dBFS`;
+    const expect = o.expectedDb === null ? '' : `, so expect about ${o.expectedDb.toFixed(0)} dB`;
+    return `output-limited: ${need}; the cap is ${db(o.capDbfs)} dBFS${expect} (${method}${atCap})`;
+  }
+  const need = o.requiredPeakDbfs === null ? 'needed output unknown' : `cancelling this needs about ${db(o.requiredPeakDbfs)} dBFS`;
+  return `not limited: ${need}; the cap is ${db(o.capDbfs)} dBFS (${method}${atCap})`;
 }
 
 export interface ToneResult {
@@ -329,6 +385,16 @@ export class PlantLoop {
   }
 }
 
+/** Peak |y| of the Wiener filter's output y = w * x, after its first `skip` samples (start-up). */
+function wienerOutputPeak(x: Float32Array, w: Float64Array, skip: number): number {
+  const y = fftConvolve(x, w);
+  let peak = 0;
+  for (let i = Math.min(skip, x.length); i < x.length; i++) {
+    const a = Math.abs(y[i]!);
+    if (a > peak) peak = a;
+  }
+  return peak;
+}
 /** Full linear convolution of a path with the output stage's short response. */
 function convolved(x: Float64Array, h: Float64Array): Float64Array {
   const out = new Float64Array(x.length + h.length - 1);
@@ -393,6 +459,9 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
 
   let peakOut = 0;
   let lastProgress = -1;
+  // time at the cap (limiter reducing gain) and time the controller's constraint acted, control on
+  const capNearLin = Math.pow(10, (scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS) - 0.1) / 20);
+  let onSamples = 0, atCapSamples = 0, constrainedSamples = 0, lateSamples = 0, lateLimitedSamples = 0;
   const events: EngineEvent[] = [];
   const { ref, errOn, errOff, out, refNoFeedback } = loop;
   const onBlock = opts.onBlock;
@@ -413,6 +482,19 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     const n = Math.min(B, total - t);
     if (t <= controlStartSample && controlStartSample < t + n && controlStartSample > 0) engine.setMode('control');
     loop.step(n);
+    if (engine.currentMode === 'control' && t >= controlStartSample) {
+      onSamples += n;
+      let blockPeak = 0;
+      for (let i = 0; i < n; i++) blockPeak = Math.max(blockPeak, Math.abs(out[i]!));
+      const atCap = blockPeak >= capNearLin || engine.limiter.readout.blockMaxGainReductionDb > 0.1;
+      const constrained = engine.controller.outputConstraint?.active === 1;
+      if (atCap) atCapSamples += n;
+      if (constrained) constrainedSamples += n;
+      if (t >= steadyStart) {
+        lateSamples += n;
+        if (atCap || constrained) lateLimitedSamples += n;
+      }
+    }
     for (let i = 0; i < n; i++) {
       const ti = t + i;
       const h = (ti / hop) | 0;
@@ -471,7 +553,9 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   const conv: ConvergenceResult = convergenceMetrics({ hop, sampleRate: fs, off: hopOff, on: hopOn, counts: hopCount }, { controlStartS });
   events.push(...drainEvents(engine.events));
   const divergenceReasons: string[] = [];
-  const faults = events.filter((e) => e.cause === 'error-rise' || e.cause === 'weights-unbounded' || e.cause === 'output-at-ceiling' || (e.cause === 'non-finite' && e.values.source !== undefined && e.values.source >= 2));
+  // Real divergence only. Output at the cap is the output-limited state, not a fault, unless the user
+  // set that detector to mute (to catch a howl that the limiter holds at the cap).
+  const faults = events.filter((e) => e.cause === 'error-rise' || e.cause === 'weights-unbounded' || (e.cause === 'output-at-ceiling' && e.action === 'mute') || (e.cause === 'non-finite' && e.values.source !== undefined && e.values.source >= 2));
   if (faults.length) divergenceReasons.push(`the guard acted: ${faults.map((e) => `${e.cause} at ${e.timeS.toFixed(2)} s (${e.action})`).slice(0, 5).join(', ')}${faults.length > 5 ? `, and ${faults.length - 5} more` : ''}`);
   if (conv.diverged) divergenceReasons.push(`error power rose more than 10 dB above control off in a 100 ms window at ${conv.divergedAtS!.toFixed(2)} s`);
   if (nonFinite > 0 || engine.meters.nonFiniteOut > 0) divergenceReasons.push(`non-finite values: ${nonFinite} error samples, ${engine.meters.nonFiniteOut} output samples`);
@@ -483,6 +567,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   }
   const stationary = isStationary(sc);
   let wienerBoundDb: number | null = null;
+  let requiredPeak: number | null = null;
   const L = sc.controller.algorithm === 'tonal' ? 0 : sc.controller.taps;
   if (sc.controller.algorithm === 'tonal') {
     notes.wienerBoundDb = 'not computed for the narrowband controller: see the per-tone figures';
@@ -494,7 +579,10 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     if (!wb) notes.wienerBoundDb = 'the correlation matrix of the filtered reference is singular, or the run is shorter than 2 × taps';
     else if (!Number.isFinite(wb.attenuationDb)) notes.wienerBoundDb = 'unbounded: the disturbance is perfectly predictable (add sensor noise for a finite bound)';
     else wienerBoundDb = wb.attenuationDb;
+    if (!wb) notes.requiredPeakDbfs = 'no Wiener solution (see wienerBoundDb)';
+    else requiredPeak = wienerOutputPeak(wRef, wb.weights, Math.max(L, trueSec.length));
   }
+  if (L > 16384) notes.requiredPeakDbfs = `not computed for more than 16384 taps (got ${L})`;
   if (wienerBoundDb !== null && attenuationDb !== null && attenuationDb > wienerBoundDb + 1) {
     notes.wienerBoundExceeded =
       'the adaptive controller beat the best fixed filter of the same length: with a tonal reference an LMS filter acts as a ' +
@@ -507,6 +595,23 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   if (!Number.isFinite(peakOutputDbfs)) {
     peakOutputDbfs = null;
     notes.peakOutputDbfs = 'the controller produced no output';
+  }
+  if (sc.controller.algorithm === 'tonal') {
+    // Σ_k |D_k| / |S(kω)|: the amplitude each tonal component needs at the controller output
+    let sum = 0;
+    const resp = new Float64Array(2);
+    for (const tm of toneMeters) {
+      if (!tm.count) continue;
+      const dAmp = (2 * Math.hypot(tm.offRe, tm.offIm)) / tm.count;
+      pathResponseAt(trueSec, (2 * Math.PI * tm.hzSum) / tm.count / fs, resp);
+      const sAmp = Math.hypot(resp[0]!, resp[1]!);
+      if (sAmp > 0) sum += dAmp / sAmp;
+    }
+    if (toneMeters.length === 0) notes.requiredPeakDbfs = 'no tonal source in the scenario';
+    else if (sum > 0) {
+      requiredPeak = sum;
+      if (toneMeters.length > 1) notes.requiredPeakDbfs = 'the sum of the amplitudes the tonal components need (their peak is at most this)';
+    } else notes.requiredPeakDbfs = 'the tonal components do not reach the error mic';
   }
   const tones: ToneResult[] = toneMeters.map((tm) => {
     const off = Math.hypot(tm.offRe, tm.offIm);
@@ -524,6 +629,28 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   } else if (tonal) {
     notes.trackingErrorHz = truth ? `no tracking: the frequency source is "${tonal.frequencySource}"` : 'no tonal source in the scenario';
   }
+  const capDbfs = scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS);
+  const marginDb = sc.controller.outputMarginDb ?? DEFAULT_OUTPUT_MARGIN_DB;
+  const constraintDbfs = capDbfs - marginDb;
+  const requiredPeakDbfs = requiredPeak !== null && requiredPeak > 0 && Number.isFinite(requiredPeak) ? amplitudeToDb(requiredPeak) : null;
+  if (requiredPeakDbfs === null && requiredPeak !== null) notes.requiredPeakDbfs = 'the optimal filter has no output';
+  const limited = requiredPeakDbfs !== null ? requiredPeakDbfs > constraintDbfs : lateSamples > 0 && lateLimitedSamples > 0.5 * lateSamples;
+  let expectedDb: number | null = null;
+  if (limited && requiredPeakDbfs !== null) {
+    expectedDb = -20 * Math.log10(1 - Math.pow(10, (constraintDbfs - requiredPeakDbfs) / 20));
+    if (wienerBoundDb !== null && wienerBoundDb < expectedDb) expectedDb = wienerBoundDb;
+  }
+  const outputLimit: OutputLimit = {
+    capDbfs,
+    constraintDbfs,
+    method: sc.controller.outputConstraint ?? DEFAULT_OUTPUT_CONSTRAINT,
+    requiredPeakDbfs,
+    limited,
+    timeAtCapFraction: onSamples > 0 ? atCapSamples / onSamples : 0,
+    constraintActiveFraction: onSamples > 0 ? constrainedSamples / onSamples : 0,
+    expectedDb,
+  };
+  const amplified = (attenuationDb !== null && attenuationDb < -1) || tones.some((t) => t.attenuationDb !== null && t.attenuationDb < -1);
   const lvl = (p: number): number | null => (p > 0 && Number.isFinite(p) ? powerToDbfs(p) : null);
   const toDbfs = (a: Float64Array): Float64Array => a.map((p) => powerToDbfs(p));
   return {
@@ -537,6 +664,8 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     wienerBoundDb,
     wienerBoundIsBound: stationary,
     peakOutputDbfs,
+    outputLimit,
+    amplified,
     diverged: divergenceReasons.length > 0,
     divergenceReasons,
     errorOffDbfs: lvl(conv.offPower),

@@ -60,8 +60,8 @@ export const METER_FIELDS = [
   'maxTruePeak',
   /** Guard state: 0 running, 1 adaptation frozen, 2 muted. */
   'guardState',
-  /** 1 while adaptation is frozen because the limiter reduces gain. */
-  'frozenByLimiter',
+  /** 1 while the output is limited (the controller's output constraint acts, or the limiter holds the cap): not a fault. */
+  'outputLimited',
   /** Control-off error power over the frame (simulated plant only; NaN live). */
   'errOffPower',
   /** Peak of what was played to the loudspeaker for listening (simulated plant only; NaN live). */

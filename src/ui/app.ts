@@ -33,6 +33,8 @@ import { buildLevelCheckReport, levelCheckHtml, reportJson, type LiveLevelCheckR
 import type { LevelCheckRequest } from '../protocol/messages.ts';
 import type { AncbTones } from './tones.ts';
 import './tones.ts';
+import './output-limit.ts';
+import type { AncbOutputLimit } from './output-limit.ts';
 import type { ScenarioEntry } from './sim-source.ts';
 import type { AncbLiveSetup } from './live-setup.ts';
 import { LIVE_MAX_QUANTUM, Session, SWITCH_CROSSFADE_MS, checkController, checkedSimScenario, defaultProbe, panelSettingsFromScenario, type ControlSettings, type ModelInfo } from '../web/session.ts';
@@ -609,12 +611,13 @@ export class AncbApp extends LitElement {
       m('err')?.show(d.errDb, NaN, NaN, nowMs);
       m('out')?.show(d.outDb, d.outPeakDb, d.ceilingDb, nowMs);
       m('gr')?.show(d.grDb, NaN, NaN, nowMs);
+      this.$<AncbOutputLimit>('ancb-output-limit')?.show(d.outputLimited);
       this.setReadout('att-now', d.attNowDb);
       this.setReadout('att-avg', d.attAvgDb);
       const cal = live ? this.activeOutputCal : null;
       // the cap in dB SPL: peak SPL at the most sensitive calibrated frequency bounds every frequency in the range
       const capSpl = cal ? ` = at most ${fmtDb(d.ceilingDb + maxSensitivity(cal).db + SINE_CREST_DB)} dB SPL peak at the ear (${fmtHz(cal.minHz)} … ${fmtHz(cal.maxHz)})` : '';
-      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtDb(d.maxTruePeakDb)} dBTP · cap ${fmtDb(d.ceilingDb)} dBFS sample peak${capSpl}${d.frozenByLimiter === 1 ? ' · adaptation paused while the limiter works' : ''}`);
+      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtDb(d.maxTruePeakDb)} dBTP · cap ${fmtDb(d.ceilingDb)} dBFS sample peak${capSpl}`);
       if (this.levelRunning) this.$<AncbLevelCheck>('ancb-level-check')?.showProgress(d.probeProgress);
       if (this.tone && this.calBusy === '') {
         // the tone stops by itself after TONE_MAX_S: the mode leaves 'tone' (4) without a stop from here
@@ -1046,6 +1049,8 @@ export class AncbApp extends LitElement {
                 .splNote=${errSpl ? `mic calibration, sound within ${fmtHz(errSpl.calibration.validFromHz)} … ${fmtHz(errSpl.calibration.validToHz)}` : ''}></ancb-meter>
               <ancb-meter channel="out" label="Output" note="RMS bar, peak marker (1 s hold), red: cap" .splOffsetDb=${outCal ? maxSensitivity(outCal).db : null} splPrefix="≤ "
                 .splNote=${outCal ? `at the ear, bound from the most sensitive reading (${fmtHz(maxSensitivity(outCal).hz)}); holds for ${fmtHz(outCal.minHz)} … ${fmtHz(outCal.maxHz)}` : ''}></ancb-meter>
+              <ancb-output-limit .method=${this.settings.controller.outputConstraint ?? 'rescale'} .capDbfs=${this.settings.ceilingDbfs}
+                @ancb-output-constraint=${(e: CustomEvent<'rescale' | 'effort' | 'none'>) => void this.onSettings(new CustomEvent('ancb-settings', { detail: { ...this.settings, controller: { ...this.settings.controller, outputConstraint: e.detail } } }))}></ancb-output-limit>
               <ancb-meter channel="gr" label="Limiter" unit="dB GR" min="0" max="24" note="gain reduction; the cap limits sample peaks, a true peak can read up to about 6 dB higher"></ancb-meter>
               <p class="small muted" id="true-peak"></p>
             </div>

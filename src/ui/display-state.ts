@@ -32,7 +32,7 @@ export class DisplayState {
   toneLocked = NaN;
   inputChannels = NaN;
   guardState = 0;
-  frozenByLimiter = 0;
+  outputLimited = 0;
   maxTruePeakDb = NaN;
   /** Largest step between consecutive output samples in the last frame (linear, full scale 1): the click meter. */
   outMaxStep = NaN;
@@ -106,7 +106,7 @@ export class DisplayState {
     this.toneLocked = f[M.toneLocked]!;
     this.inputChannels = f[M.inputChannels]!;
     this.guardState = f[M.guardState]!;
-    this.frozenByLimiter = f[M.frozenByLimiter]!;
+    this.outputLimited = f[M.outputLimited]!;
     this.maxTruePeakDb = 20 * Math.log10(f[M.maxTruePeak]!);
     this.outMaxStep = f[M.outMaxStep]!;
     this.switching = f[M.switching]!;

@@ -11,6 +11,7 @@
 import './zod-jitless.ts';
 import { scenarioForPanel, type ControlSettings } from './panel-settings.ts';
 export { scenarioController, scenarioForPanel, panelSettingsFromScenario, type ControlSettings } from './panel-settings.ts';
+import { DEFAULT_OUTPUT_CONSTRAINT } from '../dsp/output-constraint.ts';
 import type { IAudioContext, IAudioWorkletNode, GainNode } from 'standardized-audio-context';
 import type { Scenario } from '../plant/scenario.ts';
 import { engineControllerConfig, trueSecondaryPath } from '../plant/simulate.ts';
@@ -81,9 +82,15 @@ function broadbandBuild(c: Exclude<ControllerConfig, { algorithm: 'tonal' }>): s
   return `${c.taps}/${c.update ?? 'sample'}/${c.implementation ?? 'auto'}/${c.fdConstraint ?? 'full'}`;
 }
 
+/** The output constraint is fixed when a controller is built: a different one needs a new controller. */
+function sameConstraint(a: ControllerConfig, b: ControllerConfig): boolean {
+  return (a.outputConstraint ?? DEFAULT_OUTPUT_CONSTRAINT) === (b.outputConstraint ?? DEFAULT_OUTPUT_CONSTRAINT) && a.outputMarginDb === b.outputMarginDb;
+}
+
 /** Whether going from one controller setting to another needs a new engine (weights start again). */
 export function needsRebuild(a: ControllerConfig, b: ControllerConfig): boolean {
   if (a.algorithm !== b.algorithm) return true;
+  if (!sameConstraint(a, b)) return true;
   if (a.algorithm !== 'tonal' && b.algorithm !== 'tonal') return broadbandBuild(a) !== broadbandBuild(b);
   return false;
 }
@@ -94,7 +101,7 @@ export function needsRebuild(a: ControllerConfig, b: ControllerConfig): boolean 
  * built as `built` can take over by a crossfade. Sizes and fixed options must match.
  */
 export function inPlaceReachable(built: ControllerConfig, target: ControllerConfig): boolean {
-  if (built.algorithm !== target.algorithm) return false;
+  if (built.algorithm !== target.algorithm || !sameConstraint(built, target)) return false;
   if (built.algorithm === 'tonal' && target.algorithm === 'tonal') {
     return built.minHz === target.minHz && built.maxHz === target.maxHz && built.harmonicsCheck === target.harmonicsCheck && built.regularization === target.regularization;
   }

