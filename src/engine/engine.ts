@@ -44,6 +44,8 @@ export interface EngineConfig {
   controller: ControllerConfig;
   /** Secondary-path model ŝ (taps at the engine's sample rate, bulk delay included). */
   secondaryPathModel: Float32Array;
+  /** Loudspeaker → reference-mic model, for `controller.feedbackNeutralisation` (src/dsp/plant-tracking.ts). */
+  feedbackPathModel?: Float32Array | undefined;
   /** Shorthand for limiter.ceilingDbfs. Default −6 dBFS. */
   ceilingDbfs?: number;
   limiter?: LimiterSettings;
@@ -174,8 +176,9 @@ export class Engine {
     if (!(this.freezeAboveDb > 0)) throw new RangeError(`limiter.freezeAboveDb must be > 0 dB, got ${this.freezeAboveDb}`);
     this.sampleRate = sampleRate;
     this.maxBlockSize = maxBlockSize;
-    this.controller = createController(config.controller, config.secondaryPathModel, maxBlockSize, sampleRate);
-    this.standby = config.standbyController ? createController(config.standbyController, config.secondaryPathModel, maxBlockSize, sampleRate) : null;
+    const extras = { feedbackPathModel: config.feedbackPathModel };
+    this.controller = createController(config.controller, config.secondaryPathModel, maxBlockSize, sampleRate, extras);
+    this.standby = config.standbyController ? createController(config.standbyController, config.secondaryPathModel, maxBlockSize, sampleRate, extras) : null;
     if (this.standby) this.standby.adapt = false;
     this.limiter = new OutputLimiter({
       sampleRate,
