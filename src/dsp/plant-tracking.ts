@@ -50,7 +50,7 @@ export interface OnlineModelSettings {
   method: 'auxiliary-noise';
   /** Probe RMS level, dBFS (AES17); with variablePower, the highest level. Default −30. */
   noiseDbfs?: number | undefined;
-  /** NLMS step size of the online model, 0 < μ ≤ 1. Default 0.02. */
+  /** NLMS step size of the online model, 0 < μ ≤ 1. Default 0.01. */
   stepSize?: number | undefined;
   /** Online model length (taps). Default: the given model's length. */
   taps?: number | undefined;
@@ -69,6 +69,8 @@ export interface PlantTrackingConfig {
   feedbackPathModel: Float32Array | null;
   /** Seed of the probe's noise generator. Default 0x70726f62. */
   seed?: number;
+  /** Length of the filter that removes the reference-predictable residual from the modelling error (default 2 × model taps). */
+  crossTaps?: number;
   /** How often the controller takes the online model over, ms. Default 50. */
   modelUpdateMs?: number;
 }
@@ -76,9 +78,12 @@ export interface PlantTrackingConfig {
 /** What the wrapper needs of the wrapped controller beyond the Controller contract. */
 export type TrackedController = Controller & { readonly stepSize?: number };
 
-export const ONLINE_DEFAULTS = { noiseDbfs: -30, stepSize: 0.02, variablePower: true } as const;
+export const ONLINE_DEFAULTS = { noiseDbfs: -30, stepSize: 0.01, variablePower: true } as const;
 /** Probe level at the error mic relative to the residual, with variablePower (dB). */
 export const PROBE_BELOW_RESIDUAL_DB = 10;
+/** NLMS step of the cross-update filter h. */
+const CROSS_STEP = 0.01;
+const BELOW = Math.pow(10, PROBE_BELOW_RESIDUAL_DB / 10);
 /** Range of the variable probe below noiseDbfs (dB). */
 export const PROBE_RANGE_DB = 60;
 /** Averaging time of the model handed to the controller (s). */
@@ -96,6 +101,17 @@ class History {
   }
   reset(): void {
     this.buf.fill(0);
+  }
+  /** Scale the n samples of times t0 … t0 + n − 1 (both copies). */
+  scale(t0: number, n: number, g: number): void {
+    const H = this.H;
+    const b = this.buf;
+    let p = t0 % H;
+    for (let i = 0; i < n; i++) {
+      b[p] = b[p]! * g;
+      b[p + H] = b[p + H]! * g;
+      if (++p === H) p = 0;
+    }
   }
   /** Write the n samples of times t0 … t0 + n − 1. */
   write(t0: number, x: Float32Array, n: number): void {
@@ -133,6 +149,7 @@ export class PlantTrackingController implements Controller {
   private readonly probeHist: History | null;
   private readonly outHist: History | null;
   private readonly xIn: Float32Array;
+  private readonly weights: Float32Array;
   private readonly eIn: Float32Array;
   private readonly y: Float32Array;
   private readonly modelOut: Float32Array;
@@ -140,6 +157,14 @@ export class PlantTrackingController implements Controller {
   private readonly averageCoef: number;
   private readonly residualCoef: number;
   private sinceUpdate = 0;
+  /** ‖ŝ − ŝ_in_use‖² / ‖ŝ_in_use‖² at the last model update. */
+  modelDistance = 0;
+  /** True while the controller's adaptation is held because the plant is changing. */
+  holding = false;
+  private readonly holdAbove: number;
+  /** Cross-update filter h predicting the residual from the reference (none with IMC). */
+  private readonly crossWeights: Float64Array;
+  private readonly crossHist: History | null;
   private t = 0;
   private _adapt = true;
 
@@ -162,14 +187,20 @@ export class PlantTrackingController implements Controller {
     this.rng = new Random((config.seed ?? 0x70726f62) >>> 0);
     this.probe = new Float32Array(maxBlockSize);
     this.probeHist = on ? new History(M, maxBlockSize) : null;
+    const LH = on && !config.imc ? (config.crossTaps ?? 2 * M) : 0;
+    this.crossWeights = new Float64Array(LH);
+    this.crossHist = LH > 0 ? new History(LH, maxBlockSize) : null;
     const outTaps = Math.max(config.imc ? M : 0, this.feedbackModel ? this.feedbackModel.length : 0);
     this.outHist = outTaps > 0 ? new History(outTaps, maxBlockSize) : null;
     this.xIn = new Float32Array(maxBlockSize);
+    this.weights = new Float32Array((inner as { taps?: number }).taps ?? 65536);
     this.eIn = new Float32Array(maxBlockSize);
     this.y = new Float32Array(maxBlockSize);
     this.modelOut = Float32Array.from(this.fixedModel);
     this.updateEvery = Math.max(1, Math.round(((config.modelUpdateMs ?? 50) / 1000) * sampleRate));
     this.averageCoef = Math.min(1, this.updateEvery / (MODEL_AVERAGE_S * sampleRate));
+    // 3 dB above the NLMS estimate's expected misalignment, μ/(2 − μ)·(residual / probe at the mic)
+    this.holdAbove = Math.max(0.05, 2 * (this.mu / (2 - this.mu)) * BELOW);
     this.residualCoef = Math.exp(-1 / (RESIDUAL_TC_S * sampleRate));
     if (this.onlineModel) inner.setSecondaryPathModel?.(this.fixedModel);
   }
@@ -180,7 +211,7 @@ export class PlantTrackingController implements Controller {
   /** Freezing (by the user, the guard or the limiter) freezes the controller and the online model alike. */
   set adapt(on: boolean) {
     this._adapt = on;
-    this.inner.adapt = on;
+    this.inner.adapt = on && !this.holding;
   }
   get stepSize(): number | undefined {
     return this.inner.stepSize;
@@ -190,11 +221,17 @@ export class PlantTrackingController implements Controller {
   reset(): void {
     this.inner.reset();
     this.probeHist?.reset();
+    this.crossHist?.reset();
     this.outHist?.reset();
     this.t = 0;
   }
+  /** ‖w‖² computed here from a copy: a double returned through a second, non-inlined call would be boxed every block. */
   weightNormSquared(): number {
-    return this.inner.weightNormSquared();
+    const w = this.weights;
+    const n = this.inner.copyWeights(w);
+    let s = 0;
+    for (let k = 0; k < n; k++) s += w[k]! * w[k]!;
+    return s;
   }
   copyWeights(out: Float32Array): number {
     return this.inner.copyWeights(out);
@@ -219,12 +256,37 @@ export class PlantTrackingController implements Controller {
     return copyPrefix(this.onlineModel ? this.modelOut : this.fixedModel, out, this.fixedModel.length);
   }
 
+  /**
+   * The gain the engine's output stage applied to the last block (start/stop ramp × limiter gain),
+   * set by the engine after each block: the loudspeaker played this much of what the models assume,
+   * so the stored output and probe histories are scaled by it before use.
+   */
+  readonly stageGain = new Float64Array([1]);
+  private lastN = 0;
+  private settling = 0;
+
   process(ref: Float32Array, err: Float32Array, out: Float32Array, n: number): void {
     const t0 = this.t;
+    const sg = this.stageGain[0]!;
+    if (sg !== 1 && this.lastN > 0) {
+      this.outHist?.scale(t0 - this.lastN, this.lastN, sg);
+      this.probeHist?.scale(t0 - this.lastN, this.lastN, sg);
+    }
+    // the model learns only from a probe played in full: a ramp or a limiter leaves it too faint
+    // for the normalised step, whose noise would then swamp the estimate
+    if (sg < 0.99) this.settling = (this.onlineModel?.length ?? 0) + this.lastN;
+    else if (this.settling > 0) this.settling -= this.lastN;
+    this.lastN = n;
     const e = this.eIn;
     const s = this.onlineModel;
     const ph = this.probeHist;
     // 1. The probe for this block and the error with the modelled probe removed.
+    const x = this.xIn;
+    if (!this.imc) {
+      // 2. The reference the controller sees (feedback neutralised or as heard).
+      if (this.feedbackModel) this.subtractPastOutput(ref, this.feedbackModel, x, n, t0);
+      else for (let i = 0; i < n; i++) x[i] = ref[i]!;
+    }
     if (s && ph) {
       const rms = this.probeRms;
       this.rng.fillGaussianN(this.probe, n, rms);
@@ -233,11 +295,8 @@ export class PlantTrackingController implements Controller {
     } else {
       for (let i = 0; i < n; i++) e[i] = err[i]!;
     }
-    // 2. The reference the controller sees.
-    const x = this.xIn;
+    // 2'. With IMC the reference is regenerated from the error mic.
     if (this.imc) this.subtractPastOutput(e, s ?? this.fixedModel, x, n, t0);
-    else if (this.feedbackModel) this.subtractPastOutput(ref, this.feedbackModel, x, n, t0);
-    else for (let i = 0; i < n; i++) x[i] = ref[i]!;
     // 3. The controller, then the probe on top of its output.
     const y = this.y;
     this.inner.process(x, e, y, n);
@@ -259,10 +318,23 @@ export class PlantTrackingController implements Controller {
     const H = ph.H;
     const M = s.length;
     const g = this.eIn;
-    const adapt = this._adapt;
-    const mu = this.mu;
+    const adapt = this._adapt && this.settling <= 0;
+    // step scaled by the probe's SNR at the mic: full step when the probe is within
+    // PROBE_BELOW_RESIDUAL_DB of the residual, proportionally less below (the probe is capped at
+    // noiseDbfs), so a loud residual slows the model instead of making it noisy
+    let s2 = 0;
+    for (let k = 0; k < M; k++) s2 += s[k]! * s[k]!;
+    const probeAtMic = (s2 > 1e-6 ? s2 : 1e-6) * this.probeRms * this.probeRms;
+    const snrScale = this.residualPower > 0 ? Math.min(1, (BELOW * probeAtMic) / this.residualPower) : 1;
+    const mu = this.mu * snrScale;
     const a = this.residualCoef;
     let pr = this.residualPower;
+    const cx = this.crossHist;
+    if (cx) cx.write(t0, this.xIn, n);
+    const xb = cx ? cx.buf : this.probe;
+    const HX = cx ? cx.H : 1;
+    const hw = this.crossWeights;
+    const LH = hw.length;
     for (let i = 0; i < n; i++) {
       // window of v(t), v(t − 1), … v(t − M + 1), read backwards from the newest
       const newest = (t0 + i) % H + H;
@@ -274,17 +346,33 @@ export class PlantTrackingController implements Controller {
       }
       const gi = err[i]! - acc;
       g[i] = gi;
-      pr = a * pr + (1 - a) * gi * gi;
+      // the part of g the reference predicts (disturbance and control output), removed before the
+      // model sees it (cross-updated modelling: Zhang, Lan & Ser, IEEE Trans. Speech Audio Process.
+      // 9(5), 2001, from memory); without it a tonal residual lands in the model at the tone
+      let gc = gi;
+      if (cx) {
+        const xnew = (t0 + i) % HX + HX;
+        let hx = 0, xx = 0;
+        for (let k = 0; k < LH; k++) {
+          const xv = xb[xnew - k]!;
+          hx += hw[k]! * xv;
+          xx += xv * xv;
+        }
+        gc = gi - hx;
+        if (adapt && xx > 0) {
+          const ch = (CROSS_STEP * gc) / (xx + 1e-9);
+          for (let k = 0; k < LH; k++) hw[k] = hw[k]! + ch * xb[xnew - k]!;
+        }
+      }
+      pr = a * pr + (1 - a) * gc * gc;
       if (adapt && vv > 0) {
-        const c = (mu * gi) / (vv + 1e-12);
+        const c = (mu * gc) / (vv + 1e-12);
         for (let k = 0; k < M; k++) s[k] = s[k]! + c * b[newest - k]!;
       }
     }
     this.residualPower = pr === pr ? pr : 0;
     if (this.variablePower) {
-      let s2 = 0;
-      for (let k = 0; k < M; k++) s2 += s[k]! * s[k]!;
-      const want = Math.sqrt(this.residualPower / ((s2 > 1e-6 ? s2 : 1e-6) * Math.pow(10, PROBE_BELOW_RESIDUAL_DB / 10)));
+      const want = Math.sqrt(this.residualPower / ((s2 > 1e-6 ? s2 : 1e-6) * BELOW));
       this.probeRms = want > this.probeMaxRms ? this.probeMaxRms : want < this.probeMinRms ? this.probeMinRms : want;
     }
     this.sinceUpdate += n;
@@ -294,8 +382,20 @@ export class PlantTrackingController implements Controller {
       // with that lag, and its noise (the estimate's fluctuation about the path) is several dB lower
       const m = this.modelOut;
       const b2 = this.averageCoef;
-      for (let k = 0; k < M; k++) m[k] = m[k]! + b2 * (s[k]! - m[k]!);
+      let dist = 0, mm = 0;
+      for (let k = 0; k < M; k++) {
+        const mk = m[k]! + b2 * (s[k]! - m[k]!);
+        m[k] = mk;
+        dist += (s[k]! - mk) * (s[k]! - mk);
+        mm += mk * mk;
+      }
       this.inner.setSecondaryPathModel?.(m);
+      // while the estimate runs away from the model in use, the plant is changing: hold the
+      // controller's weights (they are right for the old plant, and adapting them with a model more
+      // than 90° off would diverge) until the model in use has caught up
+      this.modelDistance = mm > 0 ? dist / mm : 0;
+      this.holding = this.modelDistance > this.holdAbove;
+      this.inner.adapt = this._adapt && !this.holding;
     }
   }
 

@@ -1,5 +1,6 @@
 import type { Controller } from '../dsp/controller.ts';
 import { GainRamp } from '../dsp/gain-ramp.ts';
+import { PlantTrackingController } from '../dsp/plant-tracking.ts';
 import { HighPass } from '../dsp/highpass.ts';
 import { OutputLimiter } from '../dsp/limiter.ts';
 import { createController, type ControllerConfig } from './controller-factory.ts';
@@ -432,6 +433,11 @@ export class Engine {
       m.errPowerSlow = slowA * m.errPowerSlow + (1 - slowA) * ep;
     }
     const gain = this.ramp.gain;
+    // controllers that model their own output's way back (src/dsp/plant-tracking.ts) learn what the stage let through
+    if (this.controller instanceof PlantTrackingController) {
+      const gr = lim.readout.gainReductionDb;
+      this.controller.stageGain[0] = gr > 0 ? gain * Math.pow(10, -gr / 20) : gain;
+    }
     if (this.mode !== 'control' && gain === 0) {
       m.baselineErrPower = m.errPowerSlow;
       this.baselineValid = m.baselineErrPower > 0;

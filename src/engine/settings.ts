@@ -108,7 +108,7 @@ export const FXLMS_SETTINGS = {
     fields: {
       method: { type: 'enum', values: ['auxiliary-noise'], required: true, live: false, description: 'how the path is tracked: an auxiliary white-noise probe' },
       noiseDbfs: { type: 'number', unit: 'dBFS', min: -120, max: -6, default: -30, live: false, description: 'probe RMS level (AES17); with variablePower the highest level the probe may take' },
-      stepSize: { type: 'number', unit: '', min: 0, max: 1, minExclusive: true, default: 0.02, live: false, description: 'NLMS step size of the online model (normalised by the probe power)' },
+      stepSize: { type: 'number', unit: '', min: 0, max: 1, minExclusive: true, default: 0.01, live: false, description: 'NLMS step size of the online model (normalised by the probe power)' },
       taps: { type: 'number', unit: 'taps', min: 1, max: 16384, integer: true, live: false, description: 'online model length (default: the length of the identified model)' },
       variablePower: { type: 'boolean', default: true, live: false, description: 'probe level follows the residual error (10 dB below it, never above noiseDbfs), so it costs little attenuation once converged' },
     },
