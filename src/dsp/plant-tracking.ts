@@ -102,8 +102,9 @@ class History {
   reset(): void {
     this.buf.fill(0);
   }
-  /** Scale the n samples of times t0 … t0 + n − 1 (both copies). */
-  scale(t0: number, n: number, g: number): void {
+  /** Scale the n samples of times t0 … t0 + n − 1 (both copies) by gain[0] (a typed array: a double argument would be boxed). */
+  scale(t0: number, n: number, gain: Float64Array): void {
+    const g = gain[0]!;
     const H = this.H;
     const b = this.buf;
     let p = t0 % H;
@@ -268,9 +269,9 @@ export class PlantTrackingController implements Controller {
   process(ref: Float32Array, err: Float32Array, out: Float32Array, n: number): void {
     const t0 = this.t;
     const sg = this.stageGain[0]!;
-    if (sg !== 1 && this.lastN > 0) {
-      this.outHist?.scale(t0 - this.lastN, this.lastN, sg);
-      this.probeHist?.scale(t0 - this.lastN, this.lastN, sg);
+    if ((sg > 1.000001 || sg < 0.999999) && this.lastN > 0) {
+      this.outHist?.scale(t0 - this.lastN, this.lastN, this.stageGain);
+      this.probeHist?.scale(t0 - this.lastN, this.lastN, this.stageGain);
     }
     // the model learns only from a probe played in full: a ramp or a limiter leaves it too faint
     // for the normalised step, whose noise would then swamp the estimate
@@ -288,15 +289,19 @@ export class PlantTrackingController implements Controller {
       else for (let i = 0; i < n; i++) x[i] = ref[i]!;
     }
     if (s && ph) {
+      // unit noise, scaled here: a double passed to a call the JIT does not inline is boxed
+      const v = this.probe;
+      this.rng.fillGaussianN(v, n);
       const rms = this.probeRms;
-      this.rng.fillGaussianN(this.probe, n, rms);
+      for (let i = 0; i < n; i++) v[i] = v[i]! * rms;
       ph.write(t0, this.probe, n);
       this.adaptModel(err, n, t0);
     } else {
       for (let i = 0; i < n; i++) e[i] = err[i]!;
     }
     // 2'. With IMC the reference is regenerated from the error mic.
-    if (this.imc) this.subtractPastOutput(e, s ?? this.fixedModel, x, n, t0);
+    // (the model in use: with online modelling, the averaged estimate the controller also has)
+    if (this.imc) this.subtractPastOutput(e, s ? this.modelOut : this.fixedModel, x, n, t0);
     // 3. The controller, then the probe on top of its output.
     const y = this.y;
     this.inner.process(x, e, y, n);
@@ -400,7 +405,7 @@ export class PlantTrackingController implements Controller {
   }
 
   /** dst(i) = src(i) − Σ_{k > i} model_k · u(t0 + i − k): the model applied to outputs of earlier blocks only. */
-  private subtractPastOutput(src: Float32Array, model: Float32Array | Float64Array, dst: Float32Array, n: number, t0: number): void {
+  private subtractPastOutput(src: Float32Array, model: Float32Array, dst: Float32Array, n: number, t0: number): void {
     const oh = this.outHist!;
     const b = oh.buf;
     const H = oh.H;

@@ -122,6 +122,12 @@ export class EngineMeters {
   events = 0;
 }
 
+/** A controller's slot for the output stage's gain, or a scratch one. */
+function stageGainOf(c: Controller): Float64Array {
+  // (typed: the slot is only ever written, one number per block)
+  return c instanceof PlantTrackingController ? c.stageGain : new Float64Array(1);
+}
+
 export class Engine {
   readonly sampleRate: number;
   readonly maxBlockSize: number;
@@ -152,6 +158,8 @@ export class Engine {
   private externalBaseline = NaN;
   private outputOn = false;
   private eventsSeen = 0;
+  /** Where the output stage's gain of each block goes (a controller that models its own output: src/dsp/plant-tracking.ts). */
+  private stageGainOut: Float64Array = new Float64Array(1);
   // queued changes, applied at the next block boundary
   private pendingMode: EngineMode | null = null;
   private pendingStepSize = NaN;
@@ -181,6 +189,7 @@ export class Engine {
     this.controller = createController(config.controller, config.secondaryPathModel, maxBlockSize, sampleRate, extras);
     this.standby = config.standbyController ? createController(config.standbyController, config.secondaryPathModel, maxBlockSize, sampleRate, extras) : null;
     if (this.standby) this.standby.adapt = false;
+    this.stageGainOut = stageGainOf(this.controller);
     this.limiter = new OutputLimiter({
       sampleRate,
       maxBlockSize,
@@ -270,6 +279,7 @@ export class Engine {
       this.standby = this.controller;
       this.standby.adapt = false;
       this.controller = incoming;
+      this.stageGainOut = stageGainOf(incoming);
       this.fadeTotal = Math.max(1, Math.round((this.pendingSwitchMs / 1000) * this.sampleRate));
       this.fadeLeft = this.fadeTotal;
       this.pendingSwitchMs = NaN;
@@ -434,10 +444,8 @@ export class Engine {
     }
     const gain = this.ramp.gain;
     // controllers that model their own output's way back (src/dsp/plant-tracking.ts) learn what the stage let through
-    if (this.controller instanceof PlantTrackingController) {
-      const gr = lim.readout.gainReductionDb;
-      this.controller.stageGain[0] = gr > 0 ? gain * Math.pow(10, -gr / 20) : gain;
-    }
+    const gr = lim.readout.gainReductionDb;
+    this.stageGainOut[0] = gr > 0 ? gain * Math.pow(10, -gr / 20) : gain;
     if (this.mode !== 'control' && gain === 0) {
       m.baselineErrPower = m.errPowerSlow;
       this.baselineValid = m.baselineErrPower > 0;
