@@ -125,6 +125,7 @@ export async function simulateCommand(argv: string[]): Promise<number> {
       record: Boolean(values.out),
       onProgress: (f) => bar.update(f),
       ...(loaded.secondaryPathModel ? { secondaryPathModel: loaded.secondaryPathModel } : {}),
+      ...(loaded.feedbackPathModel ? { feedbackPathModel: loaded.feedbackPathModel } : {}),
     });
   } finally {
     bar.stop();

@@ -168,6 +168,8 @@ export class PlantLoop {
   private readonly priF: PathFilter;
   private secF: PathFilter;
   private fbF: PathFilter | null;
+  /** The true loudspeaker → reference-mic path as the engine drives it (null without paths.feedback). */
+  readonly trueFeedbackPath: Float64Array | null;
   /** Feedback-path model handed to the controller for neutralisation (null when not asked for). */
   readonly feedbackPathModel: Float32Array | null;
   /** Every secondary (and feedback) path the run will see, in order: the scenario's, then one per `secondary-path-change`. */
@@ -216,7 +218,8 @@ export class PlantLoop {
       const a = hp > 0 ? withHighPass(r, hp, fs) : r;
       return lookahead > 0 ? delayed(a, lookahead) : a;
     };
-    this.feedbackPathModel = feedbackModelFor(sc, opts.feedbackPathModel, () => sc.paths.feedback ? asDriven(denseResponse(pathResponse(sc.paths.feedback, fs))) : null);
+    this.trueFeedbackPath = sc.paths.feedback ? asDriven(denseResponse(pathResponse(sc.paths.feedback, fs))) : null;
+    this.feedbackPathModel = feedbackModelFor(sc, opts.feedbackPathModel, () => this.trueFeedbackPath);
     this.secondaryPaths.push(this.trueSecondaryPath);
     this.secAll.push(this.secF);
     this.fbAll.push(this.fbF);
