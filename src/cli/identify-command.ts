@@ -30,10 +30,14 @@ since the true path is known here, the normalised misalignment over the excited 
   --color C           noise probe colour: white (default) or pink
   --step-size MU      NLMS normalised step size in (0, 2) (default 0.1)
   --with-disturbance  keep the scenario's noise sources running while measuring
+  --feedback-out FILE save the loudspeaker → reference-mic path (measured in the same run when
+                      the plant has one) as a path-model file for controller.feedbackNeutralisation
   -h, --help          this text`;
 
 /** The printed result: the identification's figures (without the taps), plus where they came from. */
-export type IdentifySummary = Omit<IdentifySimResult, 'taps' | 'truePath' | 'delaySamples' | 'ceilingClippedSamples' | 'micClippedSamples'> & {
+export type IdentifySummary = Omit<IdentifySimResult, 'taps' | 'truePath' | 'delaySamples' | 'ceilingClippedSamples' | 'micClippedSamples' | 'feedback'> & {
+  /** The feedback path measured in the same run (taps left out), or null. */
+  feedback: Omit<NonNullable<IdentifySimResult['feedback']>, 'taps'> & { modelTaps: number } | null;
   scenario: string;
   name: string | null;
   modelTaps: number;
@@ -55,6 +59,7 @@ function parseArgsOrThrow(argv: string[]) {
     color: { type: 'string' },
     'step-size': { type: 'string' },
     'with-disturbance': { type: 'boolean' },
+    'feedback-out': { type: 'string' },
   } as const, IDENTIFY_USAGE, true);
 }
 
@@ -133,11 +138,17 @@ function identifyWith(
   if (loaded.skippedModelFile) notes.modelFile = `controller.modelFile "${loaded.skippedModelFile}" was not read: identify measures the true path`;
   if (r.ceilingClippedSamples > 0) notes.ceiling = `${r.ceilingClippedSamples} probe samples were clipped by the output ceiling: lower --level`;
   if (r.micClippedSamples > 0) notes.micClipping = `${r.micClippedSamples} microphone samples clipped at full scale: lower --level`;
-  const { taps: _taps, truePath: _truth, delaySamples: _d, ceilingClippedSamples, micClippedSamples, ...figures } = r;
+  const { taps: _taps, truePath: _truth, delaySamples: _d, ceilingClippedSamples, micClippedSamples, feedback, ...figures } = r;
+  const fbOut = values['feedback-out'];
+  if (fbOut !== undefined && !feedback) throw new UsageError('--feedback-out: the scenario has no paths.feedback (no loudspeaker → reference-mic path to measure)');
+  if (feedback && feedback.relativeLevelDb !== null && feedback.relativeLevelDb > -6) {
+    notes.feedback = `the loudspeaker reaches the reference mic ${feedback.relativeLevelDb.toFixed(1)} dB relative to the error mic: set controller.feedbackNeutralisation`;
+  }
   const summary: IdentifySummary = {
     scenario: path,
     name: sc.name ?? null,
     ...figures,
+    feedback: feedback ? (({ taps: t, ...f }) => ({ ...f, modelTaps: t.length }))(feedback) : null,
     modelTaps: r.taps.length,
     withDisturbance,
     clipping: { ceilingSamples: ceilingClippedSamples, micSamples: micClippedSamples },
@@ -155,6 +166,17 @@ function identifyWith(
       notes: `identified by ancbench ${summary.stamp.version} on the simulated plant of "${basename(path)}"${withDisturbance ? ' with its noise sources running' : ''}`,
     });
     target!.commit(serializePathModel(model));
+  }
+  if (fbOut !== undefined && feedback) {
+    const fbModel = createPathModel({
+      taps: feedback.taps,
+      sampleRate: r.sampleRate,
+      method: r.method,
+      quality: { snrDb: null, ...(feedback.misalignmentTimeDb !== null ? { misalignmentDb: feedback.misalignmentTimeDb } : {}), bandHz: [0, r.sampleRate / 2] },
+      probe: r.method === 'noise' ? { levelDbfs: r.probe.levelDbfs, durationS: r.probe.durationS, color: r.probe.color ?? 'white' } : { levelDbfs: r.probe.levelDbfs, durationS: r.probe.durationS },
+      notes: `loudspeaker → reference-mic path identified by ancbench ${summary.stamp.version} on the simulated plant of "${basename(path)}" (NLMS on the probe)`,
+    });
+    SingleOutputFile.prepare(fbOut).commit(serializePathModel(fbModel));
   }
   if (values.json) process.stdout.write(safeJson(summary, 0) + '\n');
   else process.stdout.write(readableIdentify(summary) + '\n');
@@ -175,6 +197,10 @@ export function readableIdentify(s: IdentifySummary): string {
     `SNR           ${fmtDb(s.snrDb)}  (measurement)`,
     `misalignment  ${fmtDb(s.misalignmentDb)} over ${s.bandHz[0].toFixed(0)}–${s.bandHz[1].toFixed(0)} Hz  (${fmtDb(s.misalignmentTimeDb)} over the whole band)`,
   ];
+  if (s.feedback) {
+    const f = s.feedback;
+    lines.push(`feedback path ${f.modelTaps} taps, delay ${f.delayMs === null ? '—' : `${f.delayMs.toFixed(2)} ms`}, ${fmtDb(f.relativeLevelDb)} relative to the secondary path, misalignment ${fmtDb(f.misalignmentTimeDb)}  (loudspeaker → reference mic, same probe)`);
+  }
   if (s.harmonics.length) {
     lines.push(`harmonics     ${s.harmonics.map((h) => `${ORDINAL[h.order] ?? `${h.order}th`} ${fmtDb(h.levelDb)}`).join(', ')}  (energy relative to the linear response)`);
   }

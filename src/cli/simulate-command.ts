@@ -144,6 +144,7 @@ export async function simulateCommand(argv: string[]): Promise<number> {
         onProgress: (f) => bar.update(f),
         ...(writer ? { onBlock: (sig, n) => writer.write(sig, n) } : {}),
         ...(loaded.secondaryPathModel ? { secondaryPathModel: loaded.secondaryPathModel } : {}),
+        ...(loaded.feedbackPathModel ? { feedbackPathModel: loaded.feedbackPathModel } : {}),
       });
       writer?.close();
     } catch (e) {

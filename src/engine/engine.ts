@@ -1,5 +1,6 @@
 import type { Controller } from '../dsp/controller.ts';
 import { GainRamp } from '../dsp/gain-ramp.ts';
+import { PlantTrackingController } from '../dsp/plant-tracking.ts';
 import { HighPass } from '../dsp/highpass.ts';
 import { OutputLimiter } from '../dsp/limiter.ts';
 import { createController, type ControllerConfig } from './controller-factory.ts';
@@ -51,6 +52,8 @@ export interface EngineConfig {
   controller: ControllerConfig;
   /** Secondary-path model ŝ (taps at the engine's sample rate, bulk delay included). */
   secondaryPathModel: Float32Array;
+  /** Loudspeaker → reference-mic model, for `controller.feedbackNeutralisation` (src/dsp/plant-tracking.ts). */
+  feedbackPathModel?: Float32Array | undefined;
   /** Shorthand for limiter.ceilingDbfs. Default −6 dBFS. */
   ceilingDbfs?: number;
   limiter?: LimiterSettings;
@@ -128,6 +131,12 @@ export class EngineMeters {
   events = 0;
 }
 
+/** A controller's slot for the output stage's gain, or a scratch one. */
+function stageGainOf(c: Controller): Float64Array {
+  // (typed: the slot is only ever written, one number per block)
+  return c instanceof PlantTrackingController ? c.stageGain : new Float64Array(1);
+}
+
 export class Engine {
   readonly sampleRate: number;
   readonly maxBlockSize: number;
@@ -157,6 +166,8 @@ export class Engine {
   private externalBaseline = NaN;
   private outputOn = false;
   private eventsSeen = 0;
+  /** Where the output stage's gain of each block goes (a controller that models its own output: src/dsp/plant-tracking.ts). */
+  private stageGainOut: Float64Array = new Float64Array(1);
   // queued changes, applied at the next block boundary
   private pendingMode: EngineMode | null = null;
   private pendingStepSize = NaN;
@@ -180,12 +191,14 @@ export class Engine {
     if (!(hp >= 0 && hp < sampleRate / 4)) throw new RangeError(`highPassHz must be from 0 to ${sampleRate / 4} Hz, got ${hp}`);
     this.sampleRate = sampleRate;
     this.maxBlockSize = maxBlockSize;
-    this.controller = createController(config.controller, config.secondaryPathModel, maxBlockSize, sampleRate);
-    this.standby = config.standbyController ? createController(config.standbyController, config.secondaryPathModel, maxBlockSize, sampleRate) : null;
+    const extras = { feedbackPathModel: config.feedbackPathModel };
+    this.controller = createController(config.controller, config.secondaryPathModel, maxBlockSize, sampleRate, extras);
+    this.standby = config.standbyController ? createController(config.standbyController, config.secondaryPathModel, maxBlockSize, sampleRate, extras) : null;
     if (this.standby) this.standby.adapt = false;
     const cap = Math.pow(10, ceilingDbfs / 20);
     this.controller.setOutputCap?.(cap);
     this.standby?.setOutputCap?.(cap);
+    this.stageGainOut = stageGainOf(this.controller);
     this.limiter = new OutputLimiter({
       sampleRate,
       maxBlockSize,
@@ -276,6 +289,7 @@ export class Engine {
       this.standby = this.controller;
       this.standby.adapt = false;
       this.controller = incoming;
+      this.stageGainOut = stageGainOf(incoming);
       this.fadeTotal = Math.max(1, Math.round((this.pendingSwitchMs / 1000) * this.sampleRate));
       this.fadeLeft = this.fadeTotal;
       this.pendingSwitchMs = NaN;
@@ -441,6 +455,9 @@ export class Engine {
       m.errPowerSlow = slowA * m.errPowerSlow + (1 - slowA) * ep;
     }
     const gain = this.ramp.gain;
+    // controllers that model their own output's way back (src/dsp/plant-tracking.ts) learn what the stage let through
+    const gr = lim.readout.gainReductionDb;
+    this.stageGainOut[0] = gr > 0 ? gain * Math.pow(10, -gr / 20) : gain;
     if (this.mode !== 'control' && gain === 0) {
       m.baselineErrPower = m.errPowerSlow;
       this.baselineValid = m.baselineErrPower > 0;

@@ -56,13 +56,29 @@ export interface StringSetting extends SettingBase {
   default?: string;
 }
 
-export type SettingSpec = NumberSetting | EnumSetting | BooleanSetting | StringSetting;
+/** A nested object whose fields are described by their own table (e.g. `controller.onlineModel`). */
+export interface ObjectSetting extends SettingBase {
+  type: 'object';
+  fields: SettingsTable;
+}
+
+/** One of several kinds of value (e.g. `true` or a file name); the first option that fits is taken. */
+export interface UnionSetting extends SettingBase {
+  type: 'union';
+  options: readonly (Omit<BooleanSetting, 'live' | 'description'> | Omit<StringSetting, 'live' | 'description'> | Omit<NumberSetting, 'live' | 'description'>)[];
+  default?: boolean | string | number;
+}
+
+export type SettingSpec = NumberSetting | EnumSetting | BooleanSetting | StringSetting | ObjectSetting | UnionSetting;
 export type SettingsTable = Readonly<Record<string, SettingSpec>>;
 
-type ValueOf<S> = S extends { type: 'number' } ? number
+type ScalarOf<S> = S extends { type: 'number' } ? number
   : S extends { type: 'enum'; values: readonly (infer V)[] } ? V
   : S extends { type: 'boolean' } ? boolean
   : string;
+type ValueOf<S> = S extends { type: 'object'; fields: infer F extends SettingsTable } ? SettingsObject<F>
+  : S extends { type: 'union'; options: readonly (infer O)[] } ? ScalarOf<O>
+  : ScalarOf<S>;
 
 /** The object a table describes: required fields present, the rest optional. */
 export type SettingsObject<T extends SettingsTable> =
@@ -88,6 +104,31 @@ export const FXLMS_SETTINGS = {
   fdConstraint: { type: 'enum', values: ['alternating', 'full'], default: 'full', live: false, description: 'gradient constraint of the frequency-domain implementation' },
   outputConstraint: { type: 'enum', values: OUTPUT_CONSTRAINT_METHODS, default: DEFAULT_OUTPUT_CONSTRAINT, live: false, description: 'how the controller keeps its output within the cap: rescale the weights (Qiu & Hansen 2001), penalise output power (effort weighting), or leave it to the limiter' },
   outputMarginDb: { type: 'number', unit: 'dB', min: 0, max: 20, default: DEFAULT_OUTPUT_MARGIN_DB, live: false, description: 'the constraint level sits this far below the output cap' },
+  // ---- changing plants (issue 14): src/dsp/plant-tracking.ts ----
+  onlineModel: {
+    type: 'object', live: false,
+    description: 'keep the secondary-path model current while control runs: a faint white-noise probe is added to the output and an NLMS model of the path is adapted on the error mic (Eriksson & Allie, JASA 85(2), 1989); the controller takes the model over every 50 ms',
+    fields: {
+      method: { type: 'enum', values: ['auxiliary-noise'], required: true, live: false, description: 'how the path is tracked: an auxiliary white-noise probe' },
+      noiseDbfs: { type: 'number', unit: 'dBFS', min: -120, max: -6, default: -30, live: false, description: 'probe RMS level (AES17); with variablePower the highest level the probe may take' },
+      stepSize: { type: 'number', unit: '', min: 0, max: 1, minExclusive: true, default: 0.01, live: false, description: 'NLMS step size of the online model (normalised by the probe power)' },
+      taps: { type: 'number', unit: 'taps', min: 1, max: 16384, integer: true, live: false, description: 'online model length (default: the length of the identified model)' },
+      variablePower: { type: 'boolean', default: true, live: false, description: 'probe level follows the residual error (10 dB below it, never above noiseDbfs), so it costs little attenuation once converged' },
+    },
+  },
+  feedbackNeutralisation: {
+    type: 'union', options: [{ type: 'boolean' }, { type: 'string' }], default: false, live: false,
+    description: 'subtract a model of the loudspeaker → reference-mic path from the reference before the controller uses it (Kuo & Morgan, Active Noise Control Systems, 1996): true takes the model identified with the secondary path; a string names a path-model file',
+  },
+} as const satisfies SettingsTable;
+
+/**
+ * One-microphone broadband control (internal model control): the reference is regenerated from the
+ * error mic as x̂ = e − ŝ*y and fed to FxNLMS (src/dsp/plant-tracking.ts). Same fields as FxLMS.
+ */
+export const IMC_SETTINGS = {
+  ...FXLMS_SETTINGS,
+  algorithm: { type: 'enum', values: ['imc'], required: true, live: false, description: 'internal model control: FxNLMS on the reference regenerated from the error mic, x̂ = e − ŝ*y' },
 } as const satisfies SettingsTable;
 
 /** The tone follower: narrowband FxLMS at a tracked fundamental and its harmonics (src/dsp/tonal-controller.ts). */
@@ -140,11 +181,12 @@ export const OUTPUT_STAGE_SETTINGS = {
 export function controllerTable(algorithm: unknown): SettingsTable | null {
   if (algorithm === 'fxlms' || algorithm === 'fxnlms') return FXLMS_SETTINGS;
   if (algorithm === 'tonal') return TONAL_SETTINGS;
+  if (algorithm === 'imc') return IMC_SETTINGS;
   return null;
 }
 
 /** Every algorithm a controller configuration may name. */
-export const ALGORITHMS = ['fxlms', 'fxnlms', 'tonal'] as const;
+export const ALGORITHMS = ['fxlms', 'fxnlms', 'tonal', 'imc'] as const;
 
 // ---------------------------------------------------------------------------------------------
 // Derived checks (no zod: this runs in the worklet)
@@ -164,6 +206,10 @@ export function describeRange(spec: SettingSpec): string {
       return 'true or false';
     case 'string':
       return 'a non-empty string';
+    case 'object':
+      return `an object with ${Object.entries(spec.fields).map(([k, f]) => `${k}${f.required ? '' : '?'}`).join(', ')}`;
+    case 'union':
+      return spec.options.map((o) => describeRange(o as SettingSpec)).join(' or ');
   }
 }
 
@@ -183,6 +229,10 @@ export function fitsSetting(spec: SettingSpec, v: unknown): boolean {
       return typeof v === 'boolean';
     case 'string':
       return typeof v === 'string' && v.length > 0;
+    case 'object':
+      return settingsProblems(spec.fields, v).length === 0;
+    case 'union':
+      return spec.options.some((o) => fitsSetting(o as SettingSpec, v));
   }
 }
 
@@ -200,7 +250,8 @@ export function settingsProblems(table: SettingsTable, value: unknown, prefix = 
       if (spec.required) problems.push(`${prefix}${field}: required (${describeRange(spec)})`);
       continue;
     }
-    if (!fitsSetting(spec, v)) problems.push(rangeMessage(`${prefix}${field}`, describeRange(spec), v));
+    if (spec.type === 'object') problems.push(...settingsProblems(spec.fields, v, `${prefix}${field}.`));
+    else if (!fitsSetting(spec, v)) problems.push(rangeMessage(`${prefix}${field}`, describeRange(spec), v));
   }
   const unknown = Object.keys(o).filter((k) => !(k in table) && o[k] !== undefined);
   if (unknown.length) problems.push(`${prefix ? prefix.slice(0, -1) : '(top level)'}: unknown field(s) ${unknown.map((k) => `"${k}"`).join(', ')}`);
@@ -229,7 +280,8 @@ export function engineSettings<T extends { algorithm: string }>(controller: T): 
 
 /** A setting's default, or undefined where it has none (or depends on other settings). */
 export function settingDefault(table: SettingsTable, field: string): number | string | boolean | undefined {
-  return table[field]?.default;
+  const spec = table[field];
+  return spec && spec.type !== 'object' ? spec.default : undefined;
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -248,11 +300,16 @@ function mdRange(spec: SettingSpec): string {
 /** One table as Markdown: field, unit, range, default, live, description. */
 export function tableMarkdown(table: SettingsTable, prefix = ''): string {
   const rows = ['| field | unit | range | default | live | description |', '| --- | --- | --- | --- | --- | --- |'];
-  for (const [field, spec] of Object.entries(table)) {
-    const unit = spec.type === 'number' ? spec.unit || '—' : '—';
-    const def = spec.required ? 'required' : spec.default === undefined ? '—' : JSON.stringify(spec.default);
-    rows.push(`| \`${prefix}${field}\` | ${unit} | ${mdRange(spec)} | ${def} | ${spec.live ? 'yes' : 'no'} | ${spec.description} |`);
-  }
+  const add = (t: SettingsTable, pre: string): void => {
+    for (const [field, spec] of Object.entries(t)) {
+      const unit = spec.type === 'number' ? spec.unit || '—' : '—';
+      const def = spec.required ? 'required' : spec.type === 'object' || spec.default === undefined ? '—' : JSON.stringify(spec.default);
+      const range = spec.type === 'object' ? 'object (fields below)' : mdRange(spec);
+      rows.push(`| \`${pre}${field}\` | ${unit} | ${range} | ${def} | ${spec.live ? 'yes' : 'no'} | ${spec.description} |`);
+      if (spec.type === 'object') add(spec.fields, `${pre}${field}.`);
+    }
+  };
+  add(table, prefix);
   return rows.join('\n');
 }
 
@@ -272,6 +329,10 @@ export function settingsMarkdown(): string {
     '## Tone follower (`controller.algorithm` "tonal")',
     '',
     tableMarkdown(TONAL_SETTINGS, 'controller.'),
+    '',
+    '## One-microphone broadband control (`controller.algorithm` "imc")',
+    '',
+    'The same fields as the broadband controller; `algorithm` is "imc".',
     '',
     '## Simulator-only model imperfections (scenario `controller`, any algorithm)',
     '',

@@ -27,6 +27,8 @@ export interface LoadedScenario {
   sha256: string;
   /** The controller's model when `controller.modelFile` names one (imperfections applied on top). */
   secondaryPathModel?: Float32Array;
+  /** The feedback-path model a string `controller.feedbackNeutralisation` names. */
+  feedbackPathModel?: Float32Array;
   /** With `skipModelFile`: the `controller.modelFile` the file names, left out of `scenario` and not read. */
   skippedModelFile?: string;
   /** Remarks about the inputs that do not stop the run (also printed as notes), keyed by topic. */
@@ -106,6 +108,19 @@ export function loadScenarioFile(path: string, options: LoadScenarioOptions = {}
       else throw e;
     }
   }
+  // controller.feedbackNeutralisation may name a feedback-path model file (ancbench identify --feedback-out)
+  let feedbackPathModel: Float32Array | undefined;
+  const fbn = scenario.controller.algorithm === 'tonal' ? undefined : scenario.controller.feedbackNeutralisation;
+  if (typeof fbn === 'string') {
+    try {
+      const text = new TextDecoder().decode(readBytes(resolve(base, fbn), 'controller.feedbackNeutralisation'));
+      feedbackPathModel = Float32Array.from(parsePathModel(text, { expectedSampleRate: scenario.sampleRate }).taps);
+    } catch (e) {
+      if (e instanceof PathModelError) problems.push(`controller.feedbackNeutralisation "${fbn}": ${e.message}`);
+      else if (e instanceof InputError) problems.push(e.message);
+      else throw e;
+    }
+  }
   if (problems.length) throw new InputError(`invalid scenario "${path}":\n  ${problems.join('\n  ')}`);
   const sha256 = createHash('sha256').update(bytes).digest('hex');
   return {
@@ -114,6 +129,7 @@ export function loadScenarioFile(path: string, options: LoadScenarioOptions = {}
     wavs,
     sha256,
     ...(secondaryPathModel ? { secondaryPathModel } : {}),
+    ...(feedbackPathModel ? { feedbackPathModel } : {}),
     ...(skippedModelFile !== undefined ? { skippedModelFile } : {}),
     ...(warnings.length ? { warnings } : {}),
   };

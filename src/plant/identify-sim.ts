@@ -95,7 +95,51 @@ export interface IdentifySimResult {
   micClippedSamples: number;
   /** The true secondary path (dense, bulk delay included). */
   truePath: Float64Array;
+  /**
+   * The loudspeaker → reference-mic path, identified in the same run (the probe is heard by both
+   * microphones) when the plant has one; null otherwise. For controller.feedbackNeutralisation.
+   */
+  feedback: FeedbackIdentification | null;
   notes: Record<string, string>;
+}
+
+export interface FeedbackIdentification {
+  taps: Float64Array;
+  delayMs: number | null;
+  trueDelayMs: number | null;
+  /** Normalised misalignment against the true feedback path over the whole band (dB). */
+  misalignmentTimeDb: number | null;
+  /** Energy of the feedback path relative to the secondary path (dB): above about −6 dB neutralisation is needed. */
+  relativeLevelDb: number | null;
+}
+
+/**
+ * NLMS on the reference microphone with the loudspeaker drive as the regressor: the same probe that
+ * measures the secondary path measures the feedback path (normalised step μ, as the noise probe uses).
+ */
+class FeedbackNlms {
+  readonly w: Float64Array;
+  private readonly hist: Float64Array;
+  private p = 0;
+  private energy = 0;
+  constructor(readonly L: number, readonly mu: number) {
+    this.w = new Float64Array(L);
+    this.hist = new Float64Array(2 * L);
+  }
+  observe(drive: Float64Array, ref: Float64Array, n: number): void {
+    const { w, hist, L, mu } = this;
+    for (let i = 0; i < n; i++) {
+      this.p = this.p === 0 ? L - 1 : this.p - 1;
+      const leaving = hist[this.p]!;
+      hist[this.p] = drive[i]!;
+      hist[this.p + L] = drive[i]!;
+      this.energy += drive[i]! * drive[i]! - leaving * leaving;
+      let y = 0;
+      for (let k = 0; k < L; k++) y += w[k]! * hist[this.p + k]!;
+      const c = (mu * (ref[i]! - y)) / (this.energy + 1e-9);
+      for (let k = 0; k < L; k++) w[k] = w[k]! + c * hist[this.p + k]!;
+    }
+  }
 }
 
 function check(ok: boolean, message: string): void {
@@ -151,6 +195,13 @@ export function identifySimulated(sc: Scenario, options: IdentifySimOptions): Id
   const drive = new Float64Array(B);
   const acoustic = new Float64Array(B);
   const mic = new Float64Array(B);
+  // the feedback path, heard by the reference mic in the same run
+  const trueFb = plant.trueFeedbackPath;
+  const fbSparse = trueFb ? trimmed(trueFb) : null;
+  const fbFilter = fbSparse ? new PathFilter(fbSparse.offset, fbSparse.taps, B) : null;
+  const fbL = trueFb ? Math.min(65536, Math.max(L, Math.ceil(energyLength(trueFb, 1e-6) / 32) * 32)) : 0;
+  const fbNlms = trueFb ? new FeedbackNlms(fbL, options.stepSize ?? 0.1) : null;
+  const refMic = new Float64Array(B);
   let ceilingClipped = 0;
   let micClipped = 0;
   /** One block: the probe in `drive` (n samples) → mic. */
@@ -170,6 +221,15 @@ export function identifySimulated(sc: Scenario, options: IdentifySimOptions): Id
       let m = rest[i]! + acoustic[i]!;
       if (m > 1) { m = 1; micClipped++; } else if (m < -1) { m = -1; micClipped++; }
       mic[i] = m;
+    }
+    if (fbFilter && fbNlms) {
+      fbFilter.push(drive, n);
+      fbFilter.render(plant.time - n, refMic, n);
+      for (let i = 0; i < n; i++) {
+        const r = plant.refNoFeedback[i]! + refMic[i]!;
+        refMic[i] = r > 1 ? 1 : r < -1 ? -1 : r;
+      }
+      fbNlms.observe(drive, refMic, n);
     }
   };
 
@@ -279,6 +339,27 @@ export function identifySimulated(sc: Scenario, options: IdentifySimOptions): Id
     ceilingClippedSamples: ceilingClipped,
     micClippedSamples: micClipped,
     truePath,
+    feedback: trueFb && fbNlms ? feedbackResult(fbNlms.w, trueFb, truePath, fs) : null,
     notes,
   };
+}
+
+function feedbackResult(taps: Float64Array, truth: Float64Array, secondary: Float64Array, fs: number): FeedbackIdentification {
+  const energy = (h: ArrayLike<number>): number => {
+    let e = 0;
+    for (let i = 0; i < h.length; i++) e += h[i]! * h[i]!;
+    return e;
+  };
+  let delayMs: number | null = null;
+  let trueDelayMs: number | null = null;
+  let mis: number | null = null;
+  try {
+    delayMs = (1000 * onsetDelaySamples(taps)) / fs;
+    trueDelayMs = (1000 * onsetDelaySamples(truth)) / fs;
+    mis = misalignmentDb(taps, truth);
+  } catch (e) {
+    if (!(e instanceof RangeError)) throw e;
+  }
+  const rel = 10 * Math.log10(energy(taps) / energy(secondary));
+  return { taps, delayMs, trueDelayMs, misalignmentTimeDb: mis, relativeLevelDb: Number.isFinite(rel) ? rel : null };
 }

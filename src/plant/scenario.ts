@@ -9,8 +9,8 @@ import { z } from 'zod';
 import { buildPathResponse, DEFAULT_HALF_WIDTH, type SparseResponse } from './fractional-delay.ts';
 import { roomPathsSchema, roomPathsToExplicit } from './room-paths.ts';
 import {
-  ALGORITHMS, FXLMS_SETTINGS, LIMITER_SETTINGS, SIMULATION_ONLY_FIELDS, TONAL_SETTINGS,
-  describeRange, fitsSetting, type SettingsObject, type SettingsTable,
+  ALGORITHMS, FXLMS_SETTINGS, IMC_SETTINGS, LIMITER_SETTINGS, SIMULATION_ONLY_FIELDS, TONAL_SETTINGS,
+  describeRange, fitsSetting, type SettingSpec, type SettingsObject, type SettingsTable, type UnionSetting,
 } from '../engine/settings.ts';
 import { EVENT_ACTIONS } from '../engine/events.ts';
 import { fieldPath, showValue } from '../dsp/check.ts';
@@ -95,6 +95,10 @@ export const guardSchema = z.strictObject({
     maxAutoResumes: int(0, 1000).optional(),
   }).optional(),
 }, { error: 'must be false (no guard) or an object of guard settings' });
+/** In a room scenario, a `secondary-path-change` may move the loudspeaker instead (secondary and feedback paths recomputed). */
+const roomPositionChange = z.strictObject({
+  speaker: z.tuple([num(0, 1000, 'position in m'), num(0, 1000, 'position in m'), num(0, 1000, 'position in m')], { error: 'must be a position [x, y, z] in metres' }),
+});
 
 const explicitPaths = z.strictObject({
   reference: pathSchema,
@@ -115,25 +119,29 @@ const sensorNoise = z.union([
 export function schemaFromTable(table: SettingsTable): z.ZodObject {
   const shape: Record<string, z.ZodType> = {};
   for (const [field, spec] of Object.entries(table)) {
-    const allowed = `must be ${describeRange(spec)}`;
-    let t: z.ZodType;
-    switch (spec.type) {
-      case 'number':
-        t = z.number({ error: allowed }).refine((v) => fitsSetting(spec, v), allowed);
-        break;
-      case 'enum':
-        t = spec.values.length === 1 ? z.literal(spec.values[0]!, { error: allowed }) : z.enum(spec.values as [string, ...string[]], { error: allowed });
-        break;
-      case 'boolean':
-        t = z.boolean({ error: allowed });
-        break;
-      case 'string':
-        t = z.string({ error: allowed }).min(1, allowed);
-        break;
-    }
+    const t = schemaFromSpec(spec);
     shape[field] = spec.required ? t : t.optional();
   }
   return z.strictObject(shape);
+}
+
+/** One setting's zod schema (nested tables and unions included), with the table's range message. */
+function schemaFromSpec(spec: SettingSpec | UnionSetting['options'][number]): z.ZodType {
+  const allowed = `must be ${describeRange(spec as SettingSpec)}`;
+  switch (spec.type) {
+    case 'number':
+      return z.number({ error: allowed }).refine((v) => fitsSetting(spec as SettingSpec, v), allowed);
+    case 'enum':
+      return spec.values.length === 1 ? z.literal(spec.values[0]!, { error: allowed }) : z.enum(spec.values as [string, ...string[]], { error: allowed });
+    case 'boolean':
+      return z.boolean({ error: allowed });
+    case 'string':
+      return z.string({ error: allowed }).min(1, allowed);
+    case 'object':
+      return schemaFromTable(spec.fields);
+    case 'union':
+      return z.union(spec.options.map((o) => schemaFromSpec(o)) as unknown as [z.ZodType, z.ZodType], { error: allowed });
+  }
 }
 
 /** The scenario's controller object: a settings table plus the simulator-only model-imperfection fields. */
@@ -145,14 +153,15 @@ const controllerBranch = (table: SettingsTable) => schemaFromTable({ ...table, .
  * error at each harmonic decays with a time constant of about 2/stepSize samples whatever the path
  * gain; see src/dsp/tonal-controller.ts). Fields, ranges and defaults: src/engine/settings.ts.
  */
-export const controllerSchema = z.discriminatedUnion('algorithm', [controllerBranch(FXLMS_SETTINGS), controllerBranch(TONAL_SETTINGS)], {
+export const controllerSchema = z.discriminatedUnion('algorithm', [controllerBranch(FXLMS_SETTINGS), controllerBranch(TONAL_SETTINGS), controllerBranch(IMC_SETTINGS)], {
   error: (iss) => (iss.code === 'invalid_union' ? `algorithm must be one of ${ALGORITHMS.map((a) => `"${a}"`).join(', ')}` : undefined),
 });
 
 /** A scenario's controller object, typed from the tables. */
 export type ControllerSpec =
   | SettingsObject<typeof FXLMS_SETTINGS & typeof SIMULATION_ONLY_FIELDS>
-  | SettingsObject<typeof TONAL_SETTINGS & typeof SIMULATION_ONLY_FIELDS>;
+  | SettingsObject<typeof TONAL_SETTINGS & typeof SIMULATION_ONLY_FIELDS>
+  | SettingsObject<typeof IMC_SETTINGS & typeof SIMULATION_ONLY_FIELDS>;
 
 export const scenarioSchema = z.strictObject({
   schemaVersion: z.literal(SCENARIO_SCHEMA_VERSION, { error: `must be ${SCENARIO_SCHEMA_VERSION} (this version of ancbench reads scenario schema ${SCENARIO_SCHEMA_VERSION})` }),
@@ -179,7 +188,9 @@ export const scenarioSchema = z.strictObject({
     z.strictObject({ kind: z.literal('step-size-scale'), atS: num(0, 86400, 'time in seconds'), factor: num(1e-6, 1e6) }),
     z.strictObject({ kind: z.literal('nan-error'), atS: num(0, 86400, 'time in seconds'), durationS: num(0, 86400, 'duration in seconds').optional() }),
     z.strictObject({ kind: z.literal('mic-dropout'), atS: num(0, 86400, 'time in seconds'), durationS: num(0, 86400, 'duration in seconds'), mic: z.enum(['reference', 'error']) }),
-  ], { error: (iss) => (iss.code === 'invalid_union' ? 'kind must be one of "model-sign-flip", "step-size-scale", "nan-error", "mic-dropout"' : undefined) }), { error: 'must be an array of faults' }).max(1000).optional(),
+    // the true secondary path changes (a moved loudspeaker, a lid, a hand); the model does not, unless controller.onlineModel runs
+    z.strictObject({ kind: z.literal('secondary-path-change'), atS: num(0, 86400, 'time in seconds'), path: z.union([pathSchema, roomPositionChange], { error: 'must be a path {delayMs, gain?, fir?} or, in a room scenario, {speaker: [x, y, z]}' }) }),
+  ], { error: (iss) => (iss.code === 'invalid_union' ? 'kind must be one of "model-sign-flip", "step-size-scale", "nan-error", "mic-dropout", "secondary-path-change"' : undefined) }), { error: 'must be an array of faults' }).max(1000).optional(),
 });
 
 /** A validated scenario; room paths are already turned into explicit paths. */
@@ -274,6 +285,7 @@ export function parseScenario(value: unknown): Scenario {
       );
     }
   }
+  problems.push(...pathChangeProblems(s));
   if (s.controller.algorithm === 'tonal') {
     const c = s.controller;
     if (c.frequencySource === 'fixed' && c.hz === undefined) problems.push('controller.hz: required when frequencySource is "fixed"');
@@ -294,6 +306,21 @@ export function parseScenario(value: unknown): Scenario {
   }
   if (problems.length) throw new ScenarioError(problems);
   return s;
+}
+
+/** A `secondary-path-change` fault's new path must reach the loop no sooner than one block, and a moved loudspeaker needs a room. */
+function pathChangeProblems(s: Scenario): string[] {
+  const problems: string[] = [];
+  (s.faults ?? []).forEach((f, i) => {
+    if (f.kind !== 'secondary-path-change') return;
+    if ('speaker' in f.path) {
+      if (!s.room) problems.push(`faults[${i}].path.speaker: a moved loudspeaker needs room paths (paths.room); give {delayMs, gain?, fir?} for explicit paths`);
+      return;
+    }
+    const r = pathResponse(f.path, s.sampleRate);
+    if (r.taps.length > 0 && r.offset < s.blockSize) problems.push(`faults[${i}].path.delayMs: the new path's first sample arrives after ${r.offset} samples, but the block loop needs at least one block, ${s.blockSize} samples; got ${f.path.delayMs} ms`);
+  });
+  return problems;
 }
 
 export function isIntegerDelay(delayMs: number, sampleRate: number): boolean {

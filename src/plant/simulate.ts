@@ -21,7 +21,8 @@ import { fftConvolve } from '../dsp/fft.ts';
 import { amplitudeToDb, powerToDbfs } from '../dsp/units.ts';
 import { denseResponse } from './fractional-delay.ts';
 import { PathFilter } from './path-filter.ts';
-import { isStationary, pathResponse, scenarioCeilingDbfs, ScenarioError, type Scenario } from './scenario.ts';
+import { isStationary, pathResponse, scenarioCeilingDbfs, ScenarioError, type PathSpec, type Scenario } from './scenario.ts';
+import { roomPathsToExplicit } from './room-paths.ts';
 import { createSource, type SourceGenerator, type WavTable } from './sources.ts';
 import { imperfectModel } from './secondary-model.ts';
 import { TonalController } from '../dsp/tonal-controller.ts';
@@ -35,6 +36,8 @@ export interface SimulateOptions {
   wavs?: WavTable;
   /** A secondary-path model to use instead of the one built from the true path (e.g. a model file). */
   secondaryPathModel?: Float32Array;
+  /** A feedback-path model (a model file named by controller.feedbackNeutralisation). */
+  feedbackPathModel?: Float32Array;
   /** Keep the four signals (reference, error on, output, error off) for writing. Default false. */
   record?: boolean;
   /**
@@ -225,8 +228,17 @@ export class PlantLoop {
   readonly sources: SourceGenerator[];
   private readonly refF: PathFilter;
   private readonly priF: PathFilter;
-  private readonly secF: PathFilter;
-  private readonly fbF: PathFilter | null;
+  private secF: PathFilter;
+  private fbF: PathFilter | null;
+  /** The true loudspeaker → reference-mic path as the engine drives it (null without paths.feedback). */
+  readonly trueFeedbackPath: Float64Array | null;
+  /** Feedback-path model handed to the controller for neutralisation (null when not asked for). */
+  readonly feedbackPathModel: Float32Array | null;
+  /** Every secondary (and feedback) path the run will see, in order: the scenario's, then one per `secondary-path-change`. */
+  readonly secondaryPaths: Float64Array[] = [];
+  private readonly secAll: PathFilter[] = [];
+  private readonly fbAll: (PathFilter | null)[] = [];
+  private pathIdx = 0;
   private readonly refNoiseRms: number;
   private readonly errNoiseRms: number;
   private readonly refNoise: Random;
@@ -238,7 +250,7 @@ export class PlantLoop {
   private readonly speaker: PolynomialNonlinearity | null;
   private readonly speakerOut: Float32Array;
 
-  constructor(sc: Scenario, opts: { wavs?: WavTable; secondaryPathModel?: Float32Array; startMode?: EngineMode; standbyController?: ControllerConfig } = {}) {
+  constructor(sc: Scenario, opts: { wavs?: WavTable; secondaryPathModel?: Float32Array; feedbackPathModel?: Float32Array; startMode?: EngineMode; standbyController?: ControllerConfig } = {}) {
     const fs = sc.sampleRate;
     const B = sc.blockSize;
     this.sampleRate = fs;
@@ -263,12 +275,33 @@ export class PlantLoop {
     const acoustic = hp > 0 ? withHighPass(trueSecondaryPath(sc), hp, fs) : trueSecondaryPath(sc);
     this.trueSecondaryPath = stage.length > 1 ? convolved(acoustic, stage) : acoustic;
     this.secondaryPathModel = opts.secondaryPathModel ?? imperfectModel(this.trueSecondaryPath, sc.controller);
+    // ---- changing plants (issue 14): feedback model, path changes ----
+    const asDriven = (r: Float64Array): Float64Array => {
+      const a = hp > 0 ? withHighPass(r, hp, fs) : r;
+      return stage.length > 1 ? convolved(a, stage) : a;
+    };
+    this.trueFeedbackPath = sc.paths.feedback ? asDriven(denseResponse(pathResponse(sc.paths.feedback, fs))) : null;
+    this.feedbackPathModel = feedbackModelFor(sc, opts.feedbackPathModel, () => this.trueFeedbackPath);
+    this.secondaryPaths.push(this.trueSecondaryPath);
+    this.secAll.push(this.secF);
+    this.fbAll.push(this.fbF);
+    for (const f of [...(sc.faults ?? [])].sort((a, b) => a.atS - b.atS)) {
+      if (f.kind !== 'secondary-path-change') continue;
+      const changed = changedPaths(sc, f.path);
+      const s2 = dense(pathResponse(changed.secondary, fs));
+      this.secAll.push(new PathFilter(s2.offset, s2.taps, B));
+      this.secondaryPaths.push(asDriven(denseResponse(pathResponse(changed.secondary, fs))));
+      const fb2 = changed.feedback ? dense(pathResponse(changed.feedback, fs)) : null;
+      this.fbAll.push(fb2 ? new PathFilter(fb2.offset, fb2.taps, B) : null);
+    }
+    // ---- end changing plants ----
     try {
       this.engine = new Engine({
         sampleRate: fs,
         maxBlockSize: B,
         controller: engineControllerConfig(sc),
         secondaryPathModel: this.secondaryPathModel,
+        ...(this.feedbackPathModel ? { feedbackPathModel: this.feedbackPathModel } : {}),
         limiter: limiterSettings,
         highPassHz: hp,
         dcBlockerHz: 0, // the simulated speaker reproduces every frequency the scenario asks for
@@ -320,6 +353,12 @@ export class PlantLoop {
         case 'nan-error':
           this.nanFrom = at;
           this.nanUntil = at + Math.max(1, Math.round((f.durationS ?? 0) * this.sampleRate));
+          break;
+        case 'secondary-path-change':
+          // the true path changes; the model does not (unless the controller tracks it online)
+          this.pathIdx++;
+          this.secF = this.secAll[this.pathIdx]!;
+          this.fbF = this.fbAll[this.pathIdx]!;
           break;
         case 'mic-dropout':
           if (f.mic === 'reference') {
@@ -379,10 +418,41 @@ export class PlantLoop {
       this.speaker.process(out, this.speakerOut, n);
       driven = this.speakerOut;
     }
-    this.secF.push(driven, n);
-    if (fbF) fbF.push(driven, n);
+    // every path the run will see hears the loudspeaker, so a changed path has its history
+    for (let k = 0; k < this.secAll.length; k++) {
+      this.secAll[k]!.push(driven, n);
+      const fb = this.fbAll[k];
+      if (fb) fb.push(driven, n);
+    }
     this.time = t + n;
   }
+}
+
+/**
+ * The paths after a `secondary-path-change`: an explicit new secondary path (feedback unchanged), or in
+ * a room scenario the loudspeaker moved (secondary and feedback paths recomputed from the room).
+ */
+function changedPaths(sc: Scenario, path: Extract<NonNullable<Scenario['faults']>[number], { kind: 'secondary-path-change' }>['path']): { secondary: PathSpec; feedback: PathSpec | undefined } {
+  if ('speaker' in path) {
+    const room = sc.room!;
+    const moved = roomPathsToExplicit({ ...room, room: { ...room.room, speaker: path.speaker } }, sc.sampleRate);
+    return { secondary: moved.secondary, feedback: moved.feedback };
+  }
+  return { secondary: path, feedback: sc.paths.feedback };
+}
+
+/**
+ * The feedback-path model for `controller.feedbackNeutralisation`: a model file's taps (given by the
+ * caller), or with `true` the true path as the engine drives it (as the secondary model is built).
+ */
+function feedbackModelFor(sc: Scenario, given: Float32Array | undefined, truth: () => Float64Array | null): Float32Array | null {
+  const fbn = sc.controller.algorithm === 'tonal' ? undefined : sc.controller.feedbackNeutralisation;
+  if (fbn === undefined || fbn === false) return null;
+  if (given) return given;
+  if (typeof fbn === 'string') throw new ScenarioError([`controller.feedbackNeutralisation: the model file "${fbn}" was not loaded (the command line loads it relative to the scenario)`]);
+  const t = truth();
+  if (!t) throw new ScenarioError(['controller.feedbackNeutralisation: true needs paths.feedback (the loudspeaker → reference-mic path), got none']);
+  return Float32Array.from(t);
 }
 
 /** Peak |y| of the Wiener filter's output y = w * x, after its first `skip` samples (start-up). */
@@ -437,6 +507,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   const loop = new PlantLoop(sc, {
     ...(opts.wavs ? { wavs: opts.wavs } : {}),
     ...(opts.secondaryPathModel ? { secondaryPathModel: opts.secondaryPathModel } : {}),
+    ...(opts.feedbackPathModel ? { feedbackPathModel: opts.feedbackPathModel } : {}),
     startMode: controlStartSample === 0 ? 'control' : 'idle',
   });
   const engine = loop.engine;
@@ -478,6 +549,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   const tracked = tonal && (tonal.frequencySource === 'reference' || tonal.frequencySource === 'error') ? tonal : null;
   const truth = loop.sources.find((g) => g.frequencies);
   let locked = false, trackSq = 0, trackMax = 0, trackN = 0;
+  const imc = sc.controller.algorithm === 'imc';
   for (let t = 0; t < total; t += B) {
     const n = Math.min(B, total - t);
     if (t <= controlStartSample && controlStartSample < t + n && controlStartSample > 0) engine.setMode('control');
@@ -505,7 +577,8 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
       const a = Math.abs(out[i]!);
       if (a > peakOut) peakOut = a;
       if (ti < wienerN) {
-        wRef[ti] = refNoFeedback[i]!;
+        // IMC's reference is the disturbance regenerated from the error mic: its bound takes d as the reference
+        wRef[ti] = imc ? eo : refNoFeedback[i]!;
         wErr[ti] = eo;
       }
       if (rec) {

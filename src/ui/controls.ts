@@ -21,14 +21,14 @@
 import { LitElement, css, html } from 'lit';
 import { shared, formLayout } from './theme.ts';
 import type { ControlSettings } from '../web/session.ts';
-import type { ControllerConfig, TonalSettings } from '../engine/controller-factory.ts';
+import type { BroadbandControllerConfig, ControllerConfig, TonalSettings } from '../engine/controller-factory.ts';
 import type { FxlmsConfig } from '../dsp/fxlms.ts';
 import type { FxlmsImplementationSettings } from '../engine/implementation.ts';
 import { emit } from './emit.ts';
 import { FXLMS_SETTINGS, LIMITER_SETTINGS, TONAL_SETTINGS } from '../engine/settings.ts';
 
 /** A broadband (FxLMS / FxNLMS) configuration with its implementation fields. */
-type BroadbandConfig = FxlmsConfig & FxlmsImplementationSettings;
+type BroadbandConfig = BroadbandControllerConfig;
 
 /** The Implementation select's options: value, label, and the configuration fields each sets. */
 export const IMPLEMENTATION_CHOICES = [
@@ -204,7 +204,9 @@ export class AncbControls extends LitElement {
     const c = this.settings.controller;
     if (c.algorithm === 'tonal') this.lastTonal = c;
     else this.noteFx(c);
-    this.setController(v === 'tonal' ? this.lastTonal : { ...this.lastFx, algorithm: v === 'fxlms' ? 'fxlms' : 'fxnlms' });
+    const { feedbackNeutralisation: fbn, ...fx } = this.lastFx;
+    // "imc" has no reference microphone, so no feedback neutralisation
+    this.setController(v === 'tonal' ? this.lastTonal : v === 'imc' ? { ...fx, algorithm: 'imc' } : { ...fx, ...(fbn !== undefined ? { feedbackNeutralisation: fbn } : {}), algorithm: v === 'fxlms' ? 'fxlms' : 'fxnlms' } as BroadbandConfig);
   }
 
   private setTaps(e: Event): void {
@@ -282,6 +284,7 @@ export class AncbControls extends LitElement {
           <option value="fxnlms" ?selected=${c.algorithm === 'fxnlms'}>FxNLMS (broadband, normalised)</option>
           <option value="fxlms" ?selected=${c.algorithm === 'fxlms'}>FxLMS (broadband)</option>
           <option value="tonal" ?selected=${c.algorithm === 'tonal'}>Tone follower (narrowband)</option>
+          <option value="imc" ?selected=${c.algorithm === 'imc'}>Broadband, error mic only (IMC)</option>
         </select>
 
         ${c.algorithm === 'tonal' ? this.renderTonal(c) : html`<label for="taps">Filter length</label>

@@ -18,7 +18,7 @@ function attenuationDb(sc: Scenario, impl: FxlmsImplementation | 'js-reference',
   const loop = new PlantLoop(sc);
   if (impl !== 'js-reference') {
     const config = engineControllerConfig(sc);
-    if (config.algorithm === 'tonal') throw new Error('these scenarios use the FxLMS family');
+    if (config.algorithm === 'tonal' || config.algorithm === 'imc') throw new Error('these scenarios use the FxLMS family');
     const c = createFxlmsController(config, loop.secondaryPathModel, sc.blockSize, impl, { constraint, wasmSimd });
     Object.defineProperty(loop.engine, 'controller', { value: c });
     expect((loop.engine.controller as typeof c).implementation).toBe(impl);

@@ -65,7 +65,7 @@ describe('settings tables', () => {
 
   describe('with the controller check', () => {
     it('should name an unknown algorithm and a missing required field', () => {
-      expect(() => checkControllerSettings({ algorithm: 'rls' })).toThrow(/controller\.algorithm: must be one of "fxlms", "fxnlms", "tonal", got "rls"/);
+      expect(() => checkControllerSettings({ algorithm: 'rls' })).toThrow(/controller\.algorithm: must be one of "fxlms", "fxnlms", "tonal", "imc", got "rls"/);
       expect(() => checkControllerSettings({ algorithm: 'tonal', stepSize: 0.1 })).toThrow(/controller\.harmonics: required/);
     });
   });
