@@ -201,6 +201,11 @@ function analyzeWith(values: AnalyzeValues, cache: WavCache, out: OutputFolder |
     throw new InputError(`the recordings have different sample rates (${rates.map(([f, p, r]) => `${f} "${p}" ${r} Hz`).join(', ')}); resample them to one rate first`);
   }
   const fs = ref.wav.sampleRate;
+  for (const [flag, file, x] of [['--ref', values.ref, ref], ['--err', values.err, err], ...(on ? [['--control-on', values['control-on']!, on]] : [])] as [string, string, typeof ref][]) {
+    if (x.samples.length < MIN_ANALYSIS_SAMPLES) {
+      throw new InputError(`${flag} "${file}" holds ${x.samples.length} sample${x.samples.length === 1 ? '' : 's'} per channel (${(x.samples.length / fs).toFixed(3)} s); analyze needs at least ${MIN_ANALYSIS_SAMPLES}`);
+    }
+  }
   if (fromS !== undefined) {
     const shortest = Math.min(err.samples.length, on ? on.samples.length : Infinity);
     if (shortest - Math.round(fromS * fs) < MIN_ANALYSIS_SAMPLES) {

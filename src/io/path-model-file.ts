@@ -23,6 +23,7 @@
  */
 import { z } from 'zod';
 import { onsetDelaySamples, resampleImpulseResponse } from '../analysis/path-model.ts';
+import { show } from '../plant/scenario.ts';
 
 export const PATH_MODEL_FORMAT = 'ancbench-path-model';
 export const PATH_MODEL_VERSION = 1;
@@ -97,12 +98,9 @@ function fieldName(path: readonly PropertyKey[]): string {
   return name || '(whole file)';
 }
 
+/** A value for a message, bounded in length and depth (a deeply nested value must not overflow the stack). */
 function describeValue(value: unknown): string {
-  if (value === undefined) return 'nothing';
-  if (typeof value === 'number' && !Number.isFinite(value)) return String(value);
-  const text = JSON.stringify(value);
-  if (text === undefined) return String(value);
-  return text.length > 60 ? `${text.slice(0, 57)}...` : text;
+  return show(value);
 }
 
 export interface ParsePathModelOptions {
