@@ -145,6 +145,7 @@ function loadModel(path: string, sampleRate: number): { model: PathModel; note: 
     const note = model.resampledFromHz !== undefined && model.sampleRate === sampleRate && model.resampledFromHz !== sampleRate
       ? `the model was measured at ${model.resampledFromHz} Hz and resampled to the recordings' ${sampleRate} Hz`
       : null;
+    if (model.taps.every((t) => t === 0)) throw new InputError(`--model "${path}": all taps are zero: the model describes no path`);
     const warning = modelDelayWarning(model, MODEL_DELAY_TOLERANCE, `--model "${path}"`);
     if (warning) process.stderr.write(`ancbench analyze: warning: ${warning}\n`);
     return { model, note, warning };
