@@ -164,7 +164,7 @@ describe('hostile inputs (seeded fuzz)', () => {
         const wav = cli.file(encodeWavInt16([new Float32Array(2048).map((_, i) => Math.sin(i))], 8000), 'r.wav');
         const fixed = cmd === 'analyze' ? ['--ref', wav, '--err', wav] : cmd === 'check-limits' ? [path, '--no-closed-loop', '--ramp-s', '0.1'] : cmd === 'identify' ? [path, '--duration', '0.3'] : [path];
         // Flags first, the fixed arguments last, so that the fixed ones win where a flag repeats.
-        const code = await runChecked([cmd, ...flags.filter((f) => f !== '--' && f !== 'extra'), ...fixed], ['s.json', 'r.wav']);
+        const code = await runChecked([cmd, ...flags, ...fixed], ['s.json', 'r.wav']);
         if (code === 2) expect(cli.err.join('')).toMatch(/^ancbench( [a-z-]+)?: /);
       }),
       { seed: SEED, numRuns: 150, interruptAfterTimeLimit: BUDGET_MS },

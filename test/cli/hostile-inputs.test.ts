@@ -138,6 +138,10 @@ describe('hostile and careless inputs', () => {
     it('should put a multi-problem message on one line, and usage errors with a pointer to --help', () => {
       expect(describeFailure('analyze', new UsageError('--from must be a number')).message).toBe('ancbench analyze: --from must be a number (ancbench analyze --help lists the options)');
       expect(describeFailure('analyze', new UsageError('x')).status).toBe(2);
+      expect(describeFailure('simulate', new UsageError('simulate takes exactly one scenario file, got 2\n\nusage: ancbench simulate\n  --out DIR')).message).toBe(
+        'ancbench simulate: simulate takes exactly one scenario file, got 2 (ancbench simulate --help lists the options)',
+      );
+      expect(describeFailure('simulate', new Error('invalid scenario:\n  a: bad\n  b: worse')).message).toMatch(/^ancbench simulate: could not finish: invalid scenario: a: bad; b: worse /);
     });
 
     it('should suggest the nearest command and flag', async () => {
