@@ -225,7 +225,7 @@ function analyzeWith(values: AnalyzeValues, cache: WavCache, out: OutputFolder |
   let analysis: RecordingAnalysis;
   // Reads are counted to drive the progress bar: the analysis reads the recordings about six times over.
   const total = 6 * (ref.samples.length + err.samples.length + (on ? on.samples.length : 0));
-  const bar = progressBar('analysing', total);
+  const bar = progressBar('analysing');
   let done = 0;
   const counted = (src: SampleSource): SampleSource => ({
     length: src.length,
