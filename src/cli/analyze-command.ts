@@ -145,6 +145,7 @@ function loadModel(path: string, sampleRate: number): { model: PathModel; note: 
     const note = model.resampledFromHz !== undefined && model.sampleRate === sampleRate && model.resampledFromHz !== sampleRate
       ? `the model was measured at ${model.resampledFromHz} Hz and resampled to the recordings' ${sampleRate} Hz`
       : null;
+    if (model.taps.every((t) => t === 0)) throw new InputError(`--model "${path}": all taps are zero: the model describes no path`);
     const warning = modelDelayWarning(model, MODEL_DELAY_TOLERANCE, `--model "${path}"`);
     if (warning) process.stderr.write(`ancbench analyze: warning: ${warning}\n`);
     return { model, note, warning };
@@ -201,6 +202,11 @@ function analyzeWith(values: AnalyzeValues, cache: WavCache, out: OutputFolder |
     throw new InputError(`the recordings have different sample rates (${rates.map(([f, p, r]) => `${f} "${p}" ${r} Hz`).join(', ')}); resample them to one rate first`);
   }
   const fs = ref.wav.sampleRate;
+  for (const [flag, file, x] of [['--ref', values.ref, ref], ['--err', values.err, err], ...(on ? [['--control-on', values['control-on']!, on]] : [])] as [string, string, typeof ref][]) {
+    if (x.samples.length < MIN_ANALYSIS_SAMPLES) {
+      throw new InputError(`${flag} "${file}" holds ${x.samples.length} sample${x.samples.length === 1 ? '' : 's'} per channel (${(x.samples.length / fs).toFixed(3)} s); analyze needs at least ${MIN_ANALYSIS_SAMPLES}`);
+    }
+  }
   if (fromS !== undefined) {
     const shortest = Math.min(err.samples.length, on ? on.samples.length : Infinity);
     if (shortest - Math.round(fromS * fs) < MIN_ANALYSIS_SAMPLES) {
@@ -219,7 +225,7 @@ function analyzeWith(values: AnalyzeValues, cache: WavCache, out: OutputFolder |
   let analysis: RecordingAnalysis;
   // Reads are counted to drive the progress bar: the analysis reads the recordings about six times over.
   const total = 6 * (ref.samples.length + err.samples.length + (on ? on.samples.length : 0));
-  const bar = progressBar('analysing', total);
+  const bar = progressBar('analysing');
   let done = 0;
   const counted = (src: SampleSource): SampleSource => ({
     length: src.length,

@@ -148,7 +148,8 @@ export function describeFailure(command: string, e: unknown): { status: number; 
     return `${head}${head!.endsWith(':') ? ' ' : '; '}${rest.join('; ')}`;
   };
   const prefix = `ancbench ${command}: `;
-  if (e instanceof UsageError) return { status: 2, message: `${prefix}${oneLine(e.message)} (ancbench ${command} --help lists the options)` };
+  // A usage error's message may carry the usage text after a blank line: --help shows that instead.
+  if (e instanceof UsageError) return { status: 2, message: `${prefix}${oneLine(e.message.split('\n\n')[0]!)} (ancbench ${command} --help lists the options)` };
   if (e instanceof ScenarioError || e instanceof InputError || e instanceof WavError || e instanceof PathModelError) {
     return { status: 1, message: prefix + oneLine(e.message) };
   }

@@ -28,7 +28,9 @@ function minutes(s: number): string {
   return s < 90 ? `${Math.round(s)} s` : s < 5400 ? `${Math.round(s / 60)} min` : `${(s / 3600).toFixed(1)} h`;
 }
 
-export function progressBar(label: string, _sizeHint?: number, options: ProgressOptions = {}): Progress {
+/** `enabledOrOptions`: a boolean draws the bar or not (the earlier signature), or the options. */
+export function progressBar(label: string, enabledOrOptions: boolean | ProgressOptions = {}): Progress {
+  const options: ProgressOptions = typeof enabledOrOptions === 'boolean' ? { bar: enabledOrOptions } : enabledOrOptions;
   const now = options.now ?? (() => performance.now());
   const write = options.write ?? ((line: string) => process.stderr.write(line));
   const start = now();

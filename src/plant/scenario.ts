@@ -215,6 +215,20 @@ export class ScenarioError extends Error {
 }
 
 
+type Issue = z.core.$ZodIssue;
+
+/**
+ * A union's failure as the problems of the branch the value was meant for: the one whose problems all lie
+ * inside the value (e.g. `guard` given as an object reports its bad fields, not "must be false or an
+ * object"); the union's own message when no branch or several qualify.
+ */
+function unionBranch(iss: Issue): Issue[] {
+  if (iss.code !== 'invalid_union' || !('errors' in iss) || !iss.errors?.length) return [iss];
+  const inside = iss.errors.filter((branch) => branch.length > 0 && branch.every((b) => b.path.length > 0));
+  if (inside.length !== 1) return [iss];
+  return inside[0]!.map((b) => ({ ...b, path: [...iss.path, ...b.path] }) as Issue).flatMap(unionBranch);
+}
+
 /**
  * Validate a parsed JSON value as a scenario. Throws ScenarioError naming every bad field.
  * Cross-field rules (frequencies below Nyquist, secondary and feedback delays of at least one
@@ -225,7 +239,7 @@ export function parseScenario(value: unknown): Scenario {
   const isRoom = typeof paths === 'object' && paths !== null && 'room' in paths;
   const r = (isRoom ? roomScenarioSchema : scenarioSchema).safeParse(value, { reportInput: true });
   if (!r.success) {
-    const problems = r.error.issues.map((iss) => {
+    const problems = r.error.issues.flatMap(unionBranch).map((iss) => {
       const where = fieldPath(iss.path, '(top level)');
       if (iss.code === 'unrecognized_keys') return `${where}: unknown field(s) ${iss.keys.map((k) => `"${k}"`).join(', ')}`;
       const got = 'input' in iss && !/\bgot\b/.test(iss.message) ? `, got ${showValue(iss.input)}` : '';
