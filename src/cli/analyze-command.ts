@@ -93,7 +93,7 @@ function parseArgsOrThrow(argv: string[]) {
 }
 
 /** Decodes each file once, however many roles it plays. */
-class WavCache {
+export class WavCache {
   private readonly files = new Map<string, DecodedWav>();
   get(path: string, flag: string): DecodedWav {
     let w = this.files.get(path);
@@ -106,7 +106,7 @@ class WavCache {
 }
 
 /** One channel of a file, by the rule: the flag's channel, or 0 for a mono file; a multichannel file needs the flag. */
-function pick(cache: WavCache, flag: string, file: string, channelText: string | undefined): { wav: DecodedWav; channel: number; samples: Float32Array } {
+export function pick(cache: WavCache, flag: string, file: string, channelText: string | undefined): { wav: DecodedWav; channel: number; samples: Float32Array } {
   const wav = cache.get(file, flag);
   const count = wav.channels.length;
   let channel: number;
