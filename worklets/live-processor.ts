@@ -16,6 +16,7 @@ import {
   type PortLike,
   type WorkletMessage,
 } from '../src/protocol/messages.ts';
+import { RecordTap } from './record-tap.ts';
 import { ChunkSender, InputConditioner, Telemetry, levels } from './adapter.ts';
 import { CalibrationTone } from './calibration-tone.ts';
 import { receive, applyEngineMessage, copyWeights, fillEngineExtras, inputNonFinite, playProbe, relayEngineEvents, EngineEventState } from './engine-events.ts';
@@ -63,6 +64,7 @@ class LiveProcessor extends AudioWorkletProcessor {
   private readonly opts: LiveProcessorOptions;
   private readonly telemetry: Telemetry;
   private readonly chunks: ChunkSender;
+  private readonly tap: RecordTap;
   private readonly cond = new InputConditioner();
   private readonly evState = new EngineEventState();
   private readonly block: number;
@@ -118,6 +120,7 @@ class LiveProcessor extends AudioWorkletProcessor {
     this.probeBuf = new Float32Array(maxQuantum);
     this.telemetry = new Telemetry(this.port, telemetry, sampleRate);
     this.chunks = new ChunkSender(telemetry.chunkSamples, sampleRate, false);
+    this.tap = new RecordTap(this.port);
     this.port.onmessage = (e) => this.onMessage(e.data);
     const ready: WorkletMessage = {
       type: 'ready',
@@ -161,7 +164,7 @@ class LiveProcessor extends AudioWorkletProcessor {
 
   private onMessage(data: unknown): void {
     const msg = receive(this.port, data, sampleRate);
-    if (msg === null) return;
+    if (msg === null || this.tap.handle(msg)) return;
     const engine = this.engine;
     if (applyEngineMessage(engine, msg, this.port, this.telemetry)) return;
     const busy = this.state !== 'run';
@@ -551,6 +554,7 @@ class LiveProcessor extends AudioWorkletProcessor {
         break;
     }
     engine.process(this.ref, this.err, this.out, m);
+    this.tap.write(this.ref, this.err, this.out, engine.currentMode, m);
     const em = engine.meters;
     tel.addBlock(m, em.refPower, em.errPower, em.outPower, em.refPeak, em.errPeak, em.outPeak);
     tel.addOutput(this.out, m);

@@ -182,3 +182,39 @@ export class RecordChunkWriter {
     this.current = this.free.pop() ?? null;
   }
 }
+
+// ---------------------------------------------------------------------------------------------
+// Messages of the recording tap (part of ControlMessage / WorkletMessage in messages.ts)
+// ---------------------------------------------------------------------------------------------
+
+/**
+ * Page → worklet: `record-start` turns the tap on (into the shared ring when `sharedBuffer` is given,
+ * else posted chunks), `record-stop` flushes and turns it off (the worklet answers `record-stopped`),
+ * `record-chunk-return` hands a posted chunk's buffer back for reuse.
+ */
+export type RecordControlMessage =
+  | { type: 'record-start'; sharedBuffer?: SharedArrayBuffer }
+  | { type: 'record-stop' }
+  | { type: 'record-chunk-return'; data: Float32Array };
+
+/** Validate a recording message (throws RangeError naming the field). */
+export function parseRecordMessage(m: Record<string, unknown>): RecordControlMessage {
+  switch (m.type) {
+    case 'record-start': {
+      const sab = m.sharedBuffer;
+      if (sab === undefined) return { type: 'record-start' };
+      if (!(typeof SharedArrayBuffer !== 'undefined' && sab instanceof SharedArrayBuffer)) throw new RangeError('sharedBuffer must be a SharedArrayBuffer when given');
+      ringViews(sab);
+      return { type: 'record-start', sharedBuffer: sab };
+    }
+    case 'record-stop':
+      return { type: 'record-stop' };
+    case 'record-chunk-return':
+      if (!(m.data instanceof Float32Array) || m.data.length !== RECORD_CHANNELS * CHUNK_FRAMES) {
+        throw new RangeError(`data must be a Float32Array of ${RECORD_CHANNELS * CHUNK_FRAMES} samples (a returned chunk), got ${m.data instanceof Float32Array ? `${m.data.length} samples` : String(m.data)}`);
+      }
+      return { type: 'record-chunk-return', data: m.data };
+    default:
+      throw new RangeError(`unknown recording message type "${String(m.type)}"`);
+  }
+}
