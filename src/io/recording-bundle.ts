@@ -36,7 +36,7 @@
  */
 import { z } from 'zod';
 import { unzipSync, zipSync } from 'fflate';
-import { decodeWav, encodeWavFloat32, WavError } from './wav.ts';
+import { decodeFloat32Wav, encodeFloat32Wav, FloatWavError } from './wav-float32.ts';
 import { parsePathModel, serializePathModel, PathModelError, type PathModel } from './path-model-file.ts';
 import { safeJson } from './json.ts';
 import { EVENT_ACTIONS, EVENT_CAUSES, type EngineEvent } from '../engine/events.ts';
@@ -132,9 +132,9 @@ export function parseRecordingBundle(files: ReadonlyMap<string, Uint8Array>): Re
   const manifest = m.data as RecordingManifest;
   let wav;
   try {
-    wav = decodeWav(files.get('signals.wav')!, 'signals.wav');
+    wav = decodeFloat32Wav(files.get('signals.wav')!, 'signals.wav');
   } catch (e) {
-    if (e instanceof WavError) throw new BundleError(e.message);
+    if (e instanceof FloatWavError) throw new BundleError(e.message);
     throw e;
   }
   if (wav.sampleRate !== manifest.sampleRate) throw new BundleError(`signals.wav: sample rate ${wav.sampleRate} Hz, but recording.json says ${manifest.sampleRate} Hz`);
@@ -198,7 +198,7 @@ export function bundleFiles(b: BundleContents): Map<string, Uint8Array> {
   });
   const files = new Map<string, Uint8Array>([
     ['recording.json', enc.encode(safeJson(b.manifest) + '\n')],
-    ['signals.wav', encodeWavFloat32(channels, b.manifest.sampleRate)],
+    ['signals.wav', encodeFloat32Wav(channels, b.manifest.sampleRate)],
     ['model.json', enc.encode(serializePathModel(b.model))],
     ['events.json', enc.encode(safeJson(b.events) + '\n')],
     ['report.html', enc.encode(b.reportHtml)],

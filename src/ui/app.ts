@@ -33,6 +33,8 @@ import { buildLevelCheckReport, levelCheckHtml, reportJson, type LiveLevelCheckR
 import type { LevelCheckRequest } from '../protocol/messages.ts';
 import type { AncbTones } from './tones.ts';
 import './tones.ts';
+import './recording-panel.ts';
+import type { AncbRecording } from './recording-panel.ts';
 import type { ScenarioEntry } from './sim-source.ts';
 import type { AncbLiveSetup } from './live-setup.ts';
 import { LIVE_MAX_QUANTUM, Session, SWITCH_CROSSFADE_MS, checkController, checkedSimScenario, defaultProbe, panelSettingsFromScenario, type ControlSettings, type ModelInfo } from '../web/session.ts';
@@ -384,7 +386,10 @@ export class AncbApp extends LitElement {
     this.loadCalibrations();
     applyTheme(this.theme);
     this.session = new Session({
-      frame: (f) => this.display.push(f),
+      frame: (f) => {
+        this.display.push(f);
+        this.$<AncbRecording>('ancb-recording')?.noteFrame(f);
+      },
       event: (e) => this.pendingEvents.push(e),
       model: (m) => void this.showModel(m),
       stale: (reason) => {
@@ -1066,6 +1071,9 @@ export class AncbApp extends LitElement {
           </div>
           ${live ? this.renderTools() : ''}
           <ancb-events></ancb-events>
+          <ancb-recording .session=${this.session} .settings=${this.settings} ?running=${this.running} source=${this.source}
+            @ancb-control=${(e: CustomEvent<boolean>) => { if (this.controlOn !== e.detail) this.toggleControl(); }}
+            @ancb-settings=${(e: CustomEvent<ControlSettings>) => void this.onSettings(e)}></ancb-recording>
         </section>
       </div>
       <footer class="muted">
