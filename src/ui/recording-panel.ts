@@ -24,6 +24,7 @@ import { createPathModel } from '../io/path-model-file.ts';
 import { escapeHtml } from '../io/report-html.ts';
 import { recordingSettings, settingsFromSweep } from '../web/recording-settings.ts';
 import { STATE_CODE } from '../io/recording-bundle.ts';
+import pkg from '../../package.json' with { type: 'json' };
 
 /** Longest recording the panel keeps in memory (s). */
 export const RECORD_MAX_S = 600;
@@ -143,7 +144,7 @@ export class AncbRecording extends LitElement {
         model,
         events: [],
         reportHtml: reportPage('ancbench recording', [['started', new Date().toISOString()], ['source', this.source === 'sim' ? 'simulated plant' : 'live microphones'], ['controller', JSON.stringify(settings.controller)], ['frames dropped', String(end?.dropped ?? 'unknown')]]),
-        toolVersion: '0.1.0',
+        toolVersion: pkg.version,
       });
       this.bundle = zip;
       if (this.url) URL.revokeObjectURL(this.url);
