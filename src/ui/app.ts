@@ -390,7 +390,10 @@ export class AncbApp extends LitElement {
         this.display.push(f);
         this.$<AncbRecording>('ancb-recording')?.noteFrame(f);
       },
-      event: (e) => this.pendingEvents.push(e),
+      event: (e) => {
+        this.pendingEvents.push(e);
+        this.$<AncbRecording>('ancb-recording')?.noteEvent(e);
+      },
       model: (m) => void this.showModel(m),
       stale: (reason) => {
         this.stale = reason;

@@ -18,7 +18,8 @@ import type { ReplayWorker, BundleReplay } from '../web/replay-worker.ts';
 import RecordWorkerCtor from '../web/record-worker.ts?worker';
 import ReplayWorkerCtor from '../web/replay-worker.ts?worker';
 import { createRecordBuffer } from '../protocol/record-ring.ts';
-import type { WorkletMessage } from '../protocol/messages.ts';
+import type { PanelEvent, WorkletMessage } from '../protocol/messages.ts';
+import { EVENT_CAUSES, type EngineEvent } from '../engine/events.ts';
 import { M } from '../protocol/messages.ts';
 import { createPathModel } from '../io/path-model-file.ts';
 import { escapeHtml } from '../io/report-html.ts';
@@ -72,6 +73,9 @@ export class AncbRecording extends LitElement {
   private onTimer: ReturnType<typeof setTimeout> | null = null;
   private stopped: ((m: WorkletMessage) => void) | null = null;
   private bundle: Uint8Array | null = null;
+  /** Engine events during the recording, timed from its first meter frame (a frame late at most). */
+  private events: EngineEvent[] = [];
+  private t0 = NaN;
 
   constructor() {
     super();
@@ -88,7 +92,14 @@ export class AncbRecording extends LitElement {
 
   /** A meter frame the panel showed (call from the display loop's frame handler). */
   noteFrame(f: Float64Array): void {
+    if ((this.phase === 'off' || this.phase === 'on') && Number.isNaN(this.t0)) this.t0 = f[M.timeS]!;
     if (this.phase === 'off' || this.phase === 'on') void this.recorder?.noteMeters(f[M.refPower]!, f[M.errPower]!, this.phase === 'off' ? STATE_CODE.off : STATE_CODE.on);
+  }
+
+  /** An event the panel received (engine causes only: the bundle's events are the engine's). */
+  noteEvent(e: PanelEvent): void {
+    if ((this.phase !== 'off' && this.phase !== 'on') || Number.isNaN(this.t0)) return;
+    if ((EVENT_CAUSES as readonly string[]).includes(e.cause)) this.events.push({ ...e, cause: e.cause as EngineEvent['cause'], timeS: Math.max(0, e.timeS - this.t0) });
   }
 
   private async record(): Promise<void> {
@@ -102,6 +113,8 @@ export class AncbRecording extends LitElement {
     const sab = globalThis.crossOriginIsolated ? createRecordBuffer(fs, 4) : null;
     await this.recorder.begin(fs, session.scenario?.blockSize ?? 128, RECORD_MAX_S, sab);
     session.onRecordMessage = (m) => this.onRecordMessage(m);
+    this.events = [];
+    this.t0 = NaN;
     emit(this, 'ancb-control', false);
     session.post(sab ? { type: 'record-start', sharedBuffer: sab } : { type: 'record-start' });
     this.phase = 'off';
@@ -142,7 +155,7 @@ export class AncbRecording extends LitElement {
         devices: labels,
         settings,
         model,
-        events: [],
+        events: this.events,
         reportHtml: reportPage('ancbench recording', [['started', new Date().toISOString()], ['source', this.source === 'sim' ? 'simulated plant' : 'live microphones'], ['controller', JSON.stringify(settings.controller)], ['frames dropped', String(end?.dropped ?? 'unknown')]]),
         toolVersion: pkg.version,
       });
