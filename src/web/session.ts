@@ -355,7 +355,8 @@ export class Session {
     if (!this.settings.adaptation) this.post({ type: 'set-adaptation', on: false });
     this.identified = result;
     this.stale = false;
-    this.handlers.model({ taps: result.model, truePath: null, sampleRate: result.sampleRate, source: 'identified' });
+    this.lastModel = { taps: result.model, truePath: null, sampleRate: result.sampleRate, source: 'identified' };
+    this.handlers.model(this.lastModel);
   }
 
   setControl(on: boolean): void {
