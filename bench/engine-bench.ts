@@ -10,6 +10,9 @@
  *   npm run bench -- --worklet         also run the engine in a real-time AudioWorklet of headless
  *                                      Chromium at (4096, 2048) (or --sizes) for --worklet-seconds
  *                                      (default 60) per implementation: render-budget share, underruns
+ *   npm run bench -- --sweep           also the sweep throughput (bench/sweep-bench.ts): runs per minute
+ *                                      at (512, 256), 10 s of audio each, 1 worker vs one per core;
+ *                                      --sweep-runs N runs per pool (default 2 per core)
  *
  * A benchmark, not a test: nothing here passes or fails. Each run processes blocks until at least
  * `RUN_S` of wall time has passed; the median of the runs is reported with the spread, because the
@@ -22,6 +25,7 @@ import os from 'node:os';
 import { wasmSimdSupported } from '../src/dsp/wasm-module.ts';
 import { BLOCK, SAMPLE_RATE, VARIANTS, buildBenchEngine, benchStimulus, variantByName, type EngineHost, type Variant } from './bench-engine.ts';
 import { runWorkletBench, type WorkletResult } from './worklet-run.ts';
+import { runSweepBench, type SweepBenchRow } from './sweep-bench.ts';
 
 const RUN_S = 0.25;
 const SIZES: [number, number][] = [
@@ -77,6 +81,8 @@ interface Args {
   sizes: [number, number][] | null;
   worklet: boolean;
   workletSeconds: number;
+  sweep: boolean;
+  sweepRuns: number;
 }
 
 function parseArgs(argv: string[]): Args {
@@ -86,6 +92,8 @@ function parseArgs(argv: string[]): Args {
   let sizes: [number, number][] | null = null;
   let worklet = false;
   let workletSeconds = 60;
+  let sweep = false;
+  let sweepRuns = 2 * os.availableParallelism();
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i]!;
     if (a === '--json') json = true;
@@ -105,9 +113,13 @@ function parseArgs(argv: string[]): Args {
     else if (a === '--worklet-seconds') {
       workletSeconds = Number(argv[++i]);
       if (!(workletSeconds >= 3 && workletSeconds <= 3600)) throw new RangeError(`--worklet-seconds must be from 3 to 3600, got ${argv[i]}`);
-    } else throw new RangeError(`unknown option ${a} (known: --json, --runs N, --only LIST, --sizes LIST, --worklet, --worklet-seconds S)`);
+    } else if (a === '--sweep') sweep = true;
+    else if (a === '--sweep-runs') {
+      sweepRuns = Number(argv[++i]);
+      if (!Number.isInteger(sweepRuns) || sweepRuns < 1 || sweepRuns > 1000) throw new RangeError(`--sweep-runs must be an integer from 1 to 1000, got ${argv[i]}`);
+    } else throw new RangeError(`unknown option ${a} (known: --json, --runs N, --only LIST, --sizes LIST, --worklet, --worklet-seconds S, --sweep, --sweep-runs N)`);
   }
-  return { json, runs, only, sizes, worklet, workletSeconds };
+  return { json, runs, only, sizes, worklet, workletSeconds, sweep, sweepRuns };
 }
 
 function median(xs: number[]): number {
@@ -259,7 +271,13 @@ async function main(): Promise<void> {
       say(`${r.variant.padEnd(8)} ${String(r.taps).padStart(5)} ${String(r.modelTaps).padStart(5)} ${(100 * r.renderBudgetShare).toFixed(2).padStart(7)}% ${r.microsecondsPerQuantum.toFixed(1).padStart(11)} ${String(r.quanta).padStart(7)} ${under.padStart(10)}`);
     }
   }
-  if (args.json) process.stdout.write(JSON.stringify(all, null, 2) + '\n');
+  const sweepRows: SweepBenchRow[] = [];
+  if (args.sweep) {
+    say('');
+    say(`sweep throughput: ${args.sweepRuns} runs of 10 s at (512, 256), 48 kHz, block 128, simulated closed loop:`);
+    sweepRows.push(...(await runSweepBench(args.sweepRuns, say)).rows);
+  }
+  if (args.json) process.stdout.write(JSON.stringify([...all, ...sweepRows], null, 2) + '\n');
 }
 
 main().catch((e: unknown) => {

@@ -11,6 +11,7 @@ import {
   type PortLike,
   type WorkletMessage,
 } from '../src/protocol/messages.ts';
+import { RecordTap } from './record-tap.ts';
 import { ChunkSender, InputConditioner, Telemetry, levels } from './adapter.ts';
 import { receive, applyEngineMessage, copyWeights, fillEngineExtras, inputNonFinite, relayEngineEvents, EngineEventState } from './engine-events.ts';
 
@@ -31,6 +32,8 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
   private readonly opts: LiveProcessorOptions;
   private readonly telemetry: Telemetry;
   private readonly chunks: ChunkSender;
+  /** Recording of a live run (src/protocol/record-ring.ts): what the engine hears and plays, per block. */
+  private readonly tap: RecordTap;
   private readonly cond = new InputConditioner();
   private readonly evState = new EngineEventState();
   private readonly block: number;
@@ -50,6 +53,7 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
     this.opts = o;
     this.telemetry = new Telemetry(this.port, telemetry, sampleRate);
     this.chunks = new ChunkSender(telemetry.chunkSamples, sampleRate, false);
+    this.tap = new RecordTap(this.port);
     this.seq = new LiveSequence(sampleRate, o, this);
     const maxQuantum = o.maxQuantum;
     this.block = maxQuantum;
@@ -90,6 +94,7 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
     this.chunks.push(err, null, ref, m, false);
   }
   meterEngineBlock(engine: Engine, ref: Float32Array, err: Float32Array, out: Float32Array, m: number, offsetS: number): void {
+    this.tap.write(ref, err, out, engine.currentMode, m);
     const em = engine.meters;
     const tel = this.telemetry;
     tel.addBlock(m, em.refPower, em.errPower, em.outPower, em.refPeak, em.errPeak, em.outPeak);
@@ -100,7 +105,7 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
 
   private onMessage(data: unknown): void {
     const msg = receive(this.port, data, sampleRate);
-    if (msg === null) return;
+    if (msg === null || this.tap.handle(msg)) return;
     const engine = this.seq.engine;
     if (applyEngineMessage(engine, msg, this.port, this.telemetry)) return;
     if (this.seq.handle(msg)) return;

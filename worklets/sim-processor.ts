@@ -3,6 +3,7 @@ import { OutputLimiter } from '../src/dsp/limiter.ts';
 import type { Scenario } from '../src/plant/scenario.ts';
 import { describeImplementation } from '../src/engine/implementation.ts';
 import { M, MODE_CODES, checkTelemetryOptions, type SimProcessorOptions, type PortLike, type WorkletMessage } from '../src/protocol/messages.ts';
+import { RecordTap } from './record-tap.ts';
 import { ChunkSender, Telemetry, levels } from './adapter.ts';
 import { receive, applyEngineMessage, attachStandby, copyWeights, fillEngineExtras, relayEngineEvents, EngineEventState } from './engine-events.ts';
 
@@ -29,6 +30,7 @@ class SimProcessor extends AudioWorkletProcessor {
   private readonly loop: PlantLoop;
   private readonly telemetry: Telemetry;
   private readonly chunks: ChunkSender;
+  private readonly tap: RecordTap;
   private readonly evState = new EngineEventState();
   private readonly mon: Float32Array;
   private readonly monOut: Float32Array;
@@ -64,6 +66,7 @@ class SimProcessor extends AudioWorkletProcessor {
     this.monitorGain = Math.pow(10, o.monitorGainDb / 20);
     this.telemetry = new Telemetry(this.port, telemetry, sampleRate);
     this.chunks = new ChunkSender(telemetry.chunkSamples, sampleRate, true);
+    this.tap = new RecordTap(this.port);
     this.port.onmessage = (e) => this.onMessage(e.data);
     const ready: WorkletMessage = {
       type: 'ready',
@@ -87,7 +90,7 @@ class SimProcessor extends AudioWorkletProcessor {
 
   private onMessage(data: unknown): void {
     const msg = receive(this.port, data, sampleRate);
-    if (msg === null) return;
+    if (msg === null || this.tap.handle(msg)) return;
     const engine = this.loop.engine;
     if (applyEngineMessage(engine, msg, this.port, this.telemetry)) return;
     switch (msg.type) {
@@ -137,6 +140,7 @@ class SimProcessor extends AudioWorkletProcessor {
     for (let off = 0; off < n; off += B) {
       const m = n - off < B ? n - off : B;
       loop.step(m);
+      this.tap.write(loop.ref, loop.errOn, loop.out, engine.currentMode, m);
       const src = this.monitorSource === 'on' ? loop.errOn : loop.errOff;
       const g = this.monitorGain;
       for (let i = 0; i < m; i++) this.mon[i] = src[i]! * g;

@@ -103,7 +103,7 @@ function parseArgsOrThrow(argv: string[]) {
 }
 
 /** Opens each file once, however many roles it plays; files are read on demand and closed by `close()`. */
-class WavCache {
+export class WavCache {
   private readonly files = new Map<string, WavFile>();
   get(path: string, flag: string): WavFile {
     let w = this.files.get(path);
@@ -120,7 +120,7 @@ class WavCache {
 }
 
 /** One channel of a file, by the rule: the flag's channel, or 0 for a mono file; a multichannel file needs the flag. */
-function pick(cache: WavCache, flag: string, file: string, channelText: string | undefined): { wav: WavFile; channel: number; samples: SampleSource } {
+export function pick(cache: WavCache, flag: string, file: string, channelText: string | undefined): { wav: WavFile; channel: number; samples: SampleSource } {
   const wav = cache.get(file, flag);
   const count = wav.channelCount;
   let channel: number;

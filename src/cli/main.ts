@@ -8,6 +8,8 @@ import { simulateCommand } from './simulate-command.ts';
 import { identifyCommand } from './identify-command.ts';
 import { analyzeCommand } from './analyze-command.ts';
 import { checkLimitsCommand } from './check-limits-command.ts';
+import { replayCommand } from './replay-command.ts';
+import { sweepCommand } from './sweep-command.ts';
 
 type Command = (argv: string[]) => Promise<number>;
 
@@ -16,6 +18,8 @@ const COMMANDS: Record<string, { run: Command; summary: string }> = {
   identify: { run: identifyCommand, summary: 'identify the secondary path of a scenario\'s simulated plant' },
   analyze: { run: analyzeCommand, summary: 'coherence bound, causality and band attenuation from recordings' },
   'check-limits': { run: checkLimitsCommand, summary: 'ramp test signals past the output cap and check that it holds' },
+  replay: { run: replayCommand, summary: 'run recorded control-off signals through other settings (what if)' },
+  sweep: { run: sweepCommand, summary: 'run every combination of a grid of settings in parallel, best first' },
 };
 
 function usage(): string {

@@ -64,6 +64,8 @@ export interface ReportSection {
   title: string;
   paragraphs?: string[];
   table?: ReportTable;
+  /** Markup placed after the table (built by the caller with escapeHtml; e.g. a heat map). */
+  html?: string;
   plots?: PlotSpec[];
 }
 
@@ -256,6 +258,7 @@ export function renderReportHtml(doc: ReportDocument, assets: ReportAssets): str
       for (const [k, v] of section.table.rows) body.push(`<tr><td>${escapeHtml(k)}</td><td>${escapeHtml(v)}</td></tr>`);
       body.push('</table>');
     }
+    if (section.html) body.push(section.html);
     if (section.plots?.length) {
       body.push('<div class="plots">');
       for (const p of section.plots) {

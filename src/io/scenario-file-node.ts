@@ -41,6 +41,8 @@ export interface LoadScenarioOptions {
    * `ancbench identify`, which is what writes it, so it may not exist yet. Default false.
    */
   skipModelFile?: boolean;
+  /** Change the parsed JSON before it is validated (a sweep's settings). */
+  edit?: (json: unknown) => unknown;
 }
 
 /** The parsed JSON with a string `controller.modelFile` taken out, and that name; anything else unchanged. */
@@ -59,6 +61,7 @@ export function loadScenarioFile(path: string, options: LoadScenarioOptions = {}
   } catch (e) {
     throw new InputError(`scenario file "${path}" is not valid JSON: ${(e as Error).message}`);
   }
+  if (options.edit) json = options.edit(json);
   let skippedModelFile: string | undefined;
   if (options.skipModelFile) ({ json, modelFile: skippedModelFile } = withoutModelFile(json));
   const scenario = parseScenario(json);

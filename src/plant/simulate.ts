@@ -21,6 +21,7 @@ import { fftConvolve } from '../dsp/fft.ts';
 import { amplitudeToDb, powerToDbfs } from '../dsp/units.ts';
 import { denseResponse } from './fractional-delay.ts';
 import { PathFilter } from './path-filter.ts';
+import { isAmplified, OutputLimitMeter } from './output-limit.ts';
 import { isStationary, pathResponse, scenarioCeilingDbfs, ScenarioError, type PathSpec, type Scenario } from './scenario.ts';
 import { roomPathsToExplicit } from './room-paths.ts';
 import { createSource, type SourceGenerator, type WavTable } from './sources.ts';
@@ -28,7 +29,6 @@ import { imperfectModel } from './secondary-model.ts';
 import { TonalController } from '../dsp/tonal-controller.ts';
 import { describeImplementation } from '../engine/implementation.ts';
 import type { Controller } from '../dsp/controller.ts';
-import { DEFAULT_OUTPUT_CONSTRAINT, DEFAULT_OUTPUT_MARGIN_DB } from '../dsp/output-constraint.ts';
 import { pathResponseAt } from '../dsp/path-response.ts';
 
 export interface SimulateOptions {
@@ -456,7 +456,7 @@ function feedbackModelFor(sc: Scenario, given: Float32Array | undefined, truth: 
 }
 
 /** Peak |y| of the Wiener filter's output y = w * x, after its first `skip` samples (start-up). */
-function wienerOutputPeak(x: Float32Array, w: Float64Array, skip: number): number {
+export function wienerOutputPeak(x: Float32Array, w: Float64Array, skip: number): number {
   const y = fftConvolve(x, w);
   let peak = 0;
   for (let i = Math.min(skip, x.length); i < x.length; i++) {
@@ -466,7 +466,7 @@ function wienerOutputPeak(x: Float32Array, w: Float64Array, skip: number): numbe
   return peak;
 }
 /** Full linear convolution of a path with the output stage's short response. */
-function convolved(x: Float64Array, h: Float64Array): Float64Array {
+export function convolved(x: Float64Array, h: Float64Array): Float64Array {
   const out = new Float64Array(x.length + h.length - 1);
   for (let k = 0; k < h.length; k++) {
     const hk = h[k]!;
@@ -531,14 +531,13 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   let peakOut = 0;
   let lastProgress = -1;
   // time at the cap (limiter reducing gain) and time the controller's constraint acted, control on
-  const capNearLin = Math.pow(10, (scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS) - 0.1) / 20);
-  let onSamples = 0, atCapSamples = 0, constrainedSamples = 0, lateSamples = 0, lateLimitedSamples = 0;
   const events: EngineEvent[] = [];
   const { ref, errOn, errOff, out, refNoFeedback } = loop;
   const onBlock = opts.onBlock;
   const blockSignals = [ref, errOn, out, errOff, refNoFeedback] as const;
   // tonal components, demodulated over the last 25 % of the run
   const steadyStart = Math.floor(total * 0.75);
+  const limitMeter = new OutputLimitMeter(scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS), steadyStart);
   const toneMeters: ToneMeter[] = [];
   loop.sources.forEach((g, si) => {
     g.harmonicAmplitudes?.forEach((a, k) => {
@@ -554,19 +553,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     const n = Math.min(B, total - t);
     if (t <= controlStartSample && controlStartSample < t + n && controlStartSample > 0) engine.setMode('control');
     loop.step(n);
-    if (engine.currentMode === 'control' && t >= controlStartSample) {
-      onSamples += n;
-      let blockPeak = 0;
-      for (let i = 0; i < n; i++) blockPeak = Math.max(blockPeak, Math.abs(out[i]!));
-      const atCap = blockPeak >= capNearLin || engine.limiter.readout.blockMaxGainReductionDb > 0.1;
-      const constrained = engine.controller.outputConstraint?.active === 1;
-      if (atCap) atCapSamples += n;
-      if (constrained) constrainedSamples += n;
-      if (t >= steadyStart) {
-        lateSamples += n;
-        if (atCap || constrained) lateLimitedSamples += n;
-      }
-    }
+    if (engine.currentMode === 'control' && t >= controlStartSample) limitMeter.block(engine, out, n, t);
     for (let i = 0; i < n; i++) {
       const ti = t + i;
       const h = (ti / hop) | 0;
@@ -702,28 +689,8 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
   } else if (tonal) {
     notes.trackingErrorHz = truth ? `no tracking: the frequency source is "${tonal.frequencySource}"` : 'no tonal source in the scenario';
   }
-  const capDbfs = scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS);
-  const marginDb = sc.controller.outputMarginDb ?? DEFAULT_OUTPUT_MARGIN_DB;
-  const constraintDbfs = capDbfs - marginDb;
-  const requiredPeakDbfs = requiredPeak !== null && requiredPeak > 0 && Number.isFinite(requiredPeak) ? amplitudeToDb(requiredPeak) : null;
-  if (requiredPeakDbfs === null && requiredPeak !== null) notes.requiredPeakDbfs = 'the optimal filter has no output';
-  const limited = requiredPeakDbfs !== null ? requiredPeakDbfs > constraintDbfs : lateSamples > 0 && lateLimitedSamples > 0.5 * lateSamples;
-  let expectedDb: number | null = null;
-  if (limited && requiredPeakDbfs !== null) {
-    expectedDb = -20 * Math.log10(1 - Math.pow(10, (constraintDbfs - requiredPeakDbfs) / 20));
-    if (wienerBoundDb !== null && wienerBoundDb < expectedDb) expectedDb = wienerBoundDb;
-  }
-  const outputLimit: OutputLimit = {
-    capDbfs,
-    constraintDbfs,
-    method: sc.controller.outputConstraint ?? DEFAULT_OUTPUT_CONSTRAINT,
-    requiredPeakDbfs,
-    limited,
-    timeAtCapFraction: onSamples > 0 ? atCapSamples / onSamples : 0,
-    constraintActiveFraction: onSamples > 0 ? constrainedSamples / onSamples : 0,
-    expectedDb,
-  };
-  const amplified = (attenuationDb !== null && attenuationDb < -1) || tones.some((t) => t.attenuationDb !== null && t.attenuationDb < -1);
+  const outputLimit = limitMeter.summary(sc.controller, requiredPeak, wienerBoundDb, notes);
+  const amplified = isAmplified(attenuationDb, tones);
   const lvl = (p: number): number | null => (p > 0 && Number.isFinite(p) ? powerToDbfs(p) : null);
   const toDbfs = (a: Float64Array): Float64Array => a.map((p) => powerToDbfs(p));
   return {

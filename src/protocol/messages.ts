@@ -15,6 +15,7 @@
 import { checkControllerSettings } from '../engine/settings.ts';
 import type { ControllerConfig } from '../engine/controller-factory.ts';
 import type { EngineMode } from '../engine/engine.ts';
+import { parseRecordMessage, type RecordChunkMessage, type RecordControlMessage } from './record-ring.ts';
 import {
   EVENT_ACTIONS,
   EVENT_CAUSES as ENGINE_EVENT_CAUSES,
@@ -505,6 +506,7 @@ export type ControlMessage =
   | { type: 'acknowledge' }
   | { type: 'request-weights' }
   | { type: 'attach-analysis'; port: unknown }
+  | RecordControlMessage
   | { type: 'shutdown' };
 
 /**
@@ -528,6 +530,8 @@ export type WorkletMessage =
   | { type: 'recording'; err: Float32Array; ref: Float32Array; sampleRate: number }
   /** result: a LevelCapResult (src/engine/level-cap-check.ts), typed by the page. */
   | { type: 'level-check-result'; result: unknown; output: HandedToOutput }
+  | RecordChunkMessage
+  | { type: 'record-stopped'; frames: number; dropped: number }
   | { type: 'stopped' };
 
 /** A chunk of microphone audio for the analysis worker (sent on a dedicated port, never to comlink). */
@@ -643,6 +647,10 @@ export function parseControlMessage(data: unknown, sampleRate: number): ControlM
     case 'attach-analysis':
       if (typeof m.port !== 'object' || m.port === null) throw new RangeError('port must be a MessagePort');
       return { type: 'attach-analysis', port: m.port };
+    case 'record-start':
+    case 'record-stop':
+    case 'record-chunk-return':
+      return parseRecordMessage(m);
     default:
       throw new RangeError(`unknown message type "${String(m.type)}"`);
   }

@@ -35,6 +35,8 @@ import type { AncbTones } from './tones.ts';
 import './tones.ts';
 import './output-limit.ts';
 import type { AncbOutputLimit } from './output-limit.ts';
+import './recording-panel.ts';
+import type { AncbRecording } from './recording-panel.ts';
 import type { ScenarioEntry } from './sim-source.ts';
 import type { AncbLiveSetup } from './live-setup.ts';
 import { LIVE_MAX_QUANTUM, Session, SWITCH_CROSSFADE_MS, checkController, checkedSimScenario, defaultProbe, panelSettingsFromScenario, type ControlSettings, type ModelInfo } from '../web/session.ts';
@@ -387,8 +389,14 @@ export class AncbApp extends LitElement {
     this.loadCalibrations();
     applyTheme(this.theme);
     this.session = new Session({
-      frame: (f) => this.display.push(f),
-      event: (e) => this.pendingEvents.push(e),
+      frame: (f) => {
+        this.display.push(f);
+        this.$<AncbRecording>('ancb-recording')?.noteFrame(f);
+      },
+      event: (e) => {
+        this.pendingEvents.push(e);
+        this.$<AncbRecording>('ancb-recording')?.noteEvent(e);
+      },
       model: (m) => void this.showModel(m),
       stale: (reason) => {
         this.stale = reason;
@@ -1072,6 +1080,9 @@ export class AncbApp extends LitElement {
           </div>
           ${live ? this.renderTools() : ''}
           <ancb-events></ancb-events>
+          <ancb-recording .session=${this.session} .settings=${this.settings} ?running=${this.running} source=${this.source}
+            @ancb-control=${(e: CustomEvent<boolean>) => { if (this.controlOn !== e.detail) this.toggleControl(); }}
+            @ancb-settings=${(e: CustomEvent<ControlSettings>) => void this.onSettings(e)}></ancb-recording>
         </section>
       </div>
       <footer class="muted">

@@ -180,6 +180,10 @@ export class Session {
   private built: { active: ControllerConfig; standby: ControllerConfig | null } | null = null;
   /** Force posted telemetry (tests of the fallback path). */
   forcePosted = false;
+  /** The model the running engine uses, as the worklet last reported it (recordings keep it). */
+  lastModel: ModelInfo | null = null;
+  /** Where the recording tap's messages go (src/ui/recording-panel.ts). */
+  onRecordMessage: ((m: WorkletMessage) => void) | null = null;
 
   constructor(private readonly handlers: SessionHandlers) {}
 
@@ -219,7 +223,11 @@ export class Session {
   private onWorkletMessage(m: WorkletMessage): void {
     if (m.type === 'ready' || m.type === 'configured' || m.type === 'switched') {
       this.handlers.implementation(m.implementation);
+    } else if (m.type === 'record-chunk' || m.type === 'record-stopped') {
+      this.onRecordMessage?.(m);
+      return;
     } else if (m.type === 'model') {
+      this.lastModel = { taps: m.taps, truePath: m.truePath, sampleRate: m.sampleRate, source: m.source };
       this.handlers.model({ taps: m.taps, truePath: m.truePath, sampleRate: m.sampleRate, source: m.source });
     } else if (m.type === 'error') {
       this.handlers.warning(m.message);
@@ -317,7 +325,8 @@ export class Session {
     this.built = { active: { ...settings.controller }, standby };
     await this.wire(node, ctx, telemetry);
     if (!settings.adaptation) this.post({ type: 'set-adaptation', on: false });
-    this.handlers.model({ taps: model, truePath: null, sampleRate: fs, source: this.identified ? 'identified' : 'none' });
+    this.lastModel = { taps: model, truePath: null, sampleRate: fs, source: this.identified ? 'identified' : 'none' };
+    this.handlers.model(this.lastModel);
     this.watch = new LatencyWatch(ctx, (e, stale) => {
       this.handlers.event(e);
       if (stale) this.markStale(e.cause === 'error-rise' ? 'the error level rose above the control-off level' : e.cause === 'device-change' ? 'the audio devices changed' : 'the audio latency changed');
@@ -357,7 +366,8 @@ export class Session {
     if (!this.settings.adaptation) this.post({ type: 'set-adaptation', on: false });
     this.identified = result;
     this.stale = false;
-    this.handlers.model({ taps: result.model, truePath: null, sampleRate: result.sampleRate, source: 'identified' });
+    this.lastModel = { taps: result.model, truePath: null, sampleRate: result.sampleRate, source: 'identified' };
+    this.handlers.model(this.lastModel);
   }
 
   setControl(on: boolean): void {

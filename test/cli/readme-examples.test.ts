@@ -51,7 +51,7 @@ describe('README examples', () => {
 
   it('should list the commands it documents', () => {
     const verbs = new Set(readmeCommands().map((c) => c[0]));
-    for (const v of ['simulate', 'identify', 'analyze', 'check-limits']) expect(verbs).toContain(v);
+    for (const v of ['simulate', 'identify', 'analyze', 'check-limits', 'replay', 'sweep']) expect(verbs).toContain(v);
   });
 
   it('should find the sample outputs it compares', () => {
@@ -83,5 +83,5 @@ describe('README examples', () => {
       compared.push(args.join(' '));
     }
     expect([...new Set(compared)]).toEqual([...samples.keys()]);
-  }, 300_000);
+  }, 900_000);
 });
