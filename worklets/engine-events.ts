@@ -156,8 +156,8 @@ export function playProbe(engine: Engine, x: Float32Array, out: Float32Array, n:
  * PlantLoop, which takes no standby): built on the same model, frozen while on standby, as the
  * engine's own constructor does for `standbyController`.
  */
-export function attachStandby(engine: Engine, config: ControllerConfig, model: Float32Array): void {
-  const c = createController(config, model, engine.maxBlockSize, engine.sampleRate);
+export function attachStandby(engine: Engine, config: ControllerConfig, model: Float32Array, feedbackPathModel?: Float32Array): void {
+  const c = createController(config, model, engine.maxBlockSize, engine.sampleRate, { feedbackPathModel });
   c.adapt = false;
   engine.standby = c;
 }

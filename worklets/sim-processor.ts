@@ -55,7 +55,7 @@ class SimProcessor extends AudioWorkletProcessor {
     let standbyProblem = '';
     if (o.standbyController) {
       try {
-        attachStandby(this.loop.engine, o.standbyController, this.loop.secondaryPathModel);
+        attachStandby(this.loop.engine, o.standbyController, this.loop.secondaryPathModel, this.loop.trueFeedbackPath ? Float32Array.from(this.loop.trueFeedbackPath) : undefined);
       } catch (e) {
         standbyProblem = `standby controller: ${(e as Error).message}`;
       }

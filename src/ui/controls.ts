@@ -25,6 +25,8 @@ import type { BroadbandControllerConfig, ControllerConfig, TonalSettings } from 
 import type { FxlmsConfig } from '../dsp/fxlms.ts';
 import type { FxlmsImplementationSettings } from '../engine/implementation.ts';
 import { emit } from './emit.ts';
+import './plant-options.ts';
+import type { PlantOptions } from './plant-options.ts';
 import { FXLMS_SETTINGS, LIMITER_SETTINGS, TONAL_SETTINGS } from '../engine/settings.ts';
 
 /** A broadband (FxLMS / FxNLMS) configuration with its implementation fields. */
@@ -238,6 +240,14 @@ export class AncbControls extends LitElement {
     if (v !== null) this.setController({ ...this.settings.controller, leakage: v });
   }
 
+  /** Online path model and feedback neutralisation (src/ui/plant-options.ts). */
+  private setPlantOptions(o: PlantOptions): void {
+    const c = this.settings.controller;
+    if (c.algorithm === 'tonal') return;
+    const { onlineModel: _o, feedbackNeutralisation: _f, ...rest } = c;
+    this.setController({ ...rest, ...(o.onlineModel ? { onlineModel: o.onlineModel } : {}), ...(o.feedbackNeutralisation && c.algorithm !== 'imc' ? { feedbackNeutralisation: true } : {}) } as BroadbandConfig);
+  }
+
   private setCap(v: number): void {
     this.emit({ ...this.settings, ceilingDbfs: v });
   }
@@ -289,7 +299,8 @@ export class AncbControls extends LitElement {
 
         ${c.algorithm === 'tonal' ? this.renderTonal(c) : html`<label for="taps">Filter length</label>
         <span class="pair"><input id="taps" type="number" min=${TAPS_RANGE[0]} max=${TAPS_RANGE[1]} step="1" .value=${String(c.taps)} @change=${this.setTaps} /><span class="unit">taps</span></span>
-        ${this.renderImplementation(c)}`}
+        ${this.renderImplementation(c)}
+        <ancb-plant-options .controller=${c} @ancb-plant-options=${(e: CustomEvent<PlantOptions>) => this.setPlantOptions(e.detail)}></ancb-plant-options>`}
         <span class="name" id="runs-as-l">Runs as</span>
         <output id="runs-as" aria-labelledby="runs-as-l" aria-live="polite">${this.runsAs || html`<span class="unit">shown once the audio runs</span>`}</output>
 

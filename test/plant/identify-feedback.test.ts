@@ -9,7 +9,10 @@ import { simulate } from '../../src/plant/simulate.ts';
 // identification is the system's impulse response; from memory). The true path is known here.
 describe('identifySimulated', () => {
   describe('with a loudspeaker that reaches the reference mic', () => {
-    const sc = noiseScenario({ paths: { feedback: { delayMs: 6, gain: 1.5, fir: [1, 0.5] } } });
+    const FB = { delayMs: 6, gain: 1.5, fir: [1, 0.5] };
+    // zero-latency sample-peak stage: the default true-peak filter would shape both paths by their own
+    // spectra and move the energy ratio below away from the plain calculation
+    const sc = noiseScenario({ paths: { feedback: FB }, limiter: { truePeak: false } });
     it('should identify the feedback path in the same run, say it is strong, and its model should neutralise it', () => {
       const r = identifySimulated(sc, { method: 'noise' });
       expect(r.feedback).not.toBeNull();
@@ -18,10 +21,13 @@ describe('identifySimulated', () => {
       expect(fb.delayMs).toBeCloseTo(6, 3); // 48 samples at 8 kHz, as the scenario sets it
       // the energy ratio calculated from the scenario: (1.5² · 1.25) / (0.8² · 1.09) → +5.3 dB
       expect(fb.relativeLevelDb!).toBeCloseTo(10 * Math.log10((2.25 * 1.25) / (0.64 * 1.09)), 1);
-      const withModel = simulate({ ...sc, controller: { ...sc.controller, feedbackNeutralisation: 'fb.json' } as typeof sc.controller }, { feedbackPathModel: Float32Array.from(fb.taps) });
-      const clean = simulate(noiseScenario());
+      const neutralised = (how: string | boolean) => noiseScenario({ paths: { feedback: FB }, limiter: { truePeak: false }, controller: { algorithm: 'fxnlms', taps: 96, stepSize: 0.05, feedbackNeutralisation: how } });
+      const withModel = simulate(neutralised('fb.json'), { feedbackPathModel: Float32Array.from(fb.taps) });
+      const withTruth = simulate(neutralised(true));
       expect(withModel.diverged).toBe(false);
-      expect(withModel.attenuationDb!).toBeGreaterThan(clean.attenuationDb! - 7); // the criterion for neutralisation
+      // the identified model neutralises as well as the true path does
+      expect(withTruth.attenuationDb!).toBeGreaterThan(30);
+      expect(Math.abs(withModel.attenuationDb! - withTruth.attenuationDb!)).toBeLessThan(1);
     });
   });
   describe('with no feedback path', () => {
