@@ -5,6 +5,7 @@ import { ExponentialSweep } from '../src/dsp/sweep.ts';
 import { createOutputCalibration } from '../src/analysis/calibration.ts';
 import { LevelCapCheck, type LevelCapCheckConfig } from '../src/plant/level-cap-check.ts';
 import {
+  LIVE_PARAMETERS,
   M,
   MODE_CODES,
   checkTelemetryOptions,
@@ -59,7 +60,13 @@ const OPEN_SLACK_S = 0.2;
 type State = 'run' | 'fade' | 'open' | 'probe' | 'tone' | 'check' | 'stopping' | 'stopped';
 
 class LiveProcessor extends AudioWorkletProcessor {
+  static get parameterDescriptors(): typeof LIVE_PARAMETERS {
+    return LIVE_PARAMETERS;
+  }
+
   private engine: Engine;
+  /** Last value seen of each AudioParam (stepSize, leakage, ceilingDbfs): only a change is applied. */
+  private readonly lastParam = new Float64Array(LIVE_PARAMETERS.length);
   private readonly opts: LiveProcessorOptions;
   private readonly telemetry: Telemetry;
   private readonly chunks: ChunkSender;
@@ -111,6 +118,8 @@ class LiveProcessor extends AudioWorkletProcessor {
     const telemetry = checkTelemetryOptions(o.telemetry);
     this.opts = o;
     this.block = maxQuantum;
+    const initial = options.parameterData ?? {};
+    for (let i = 0; i < LIVE_PARAMETERS.length; i++) this.lastParam[i] = initial[LIVE_PARAMETERS[i]!.name] ?? LIVE_PARAMETERS[i]!.defaultValue;
     this.engine = this.buildEngine(o.secondaryPathModel, o.controller, o.startMode ?? 'idle', o.standbyController);
     this.ref = new Float32Array(maxQuantum);
     this.err = new Float32Array(maxQuantum);
@@ -366,8 +375,24 @@ class LiveProcessor extends AudioWorkletProcessor {
     this.afterActivity();
   }
 
-  process(inputs: Float32Array[][], outputs: Float32Array[][]): boolean {
+  /** Apply AudioParam values that changed since the last quantum (the engine takes them at its next block). */
+  private applyParameters(parameters: Record<string, Float32Array> | undefined): void {
+    if (parameters === undefined) return;
+    for (let i = 0; i < LIVE_PARAMETERS.length; i++) {
+      const values = parameters[LIVE_PARAMETERS[i]!.name];
+      if (values === undefined || values.length === 0) continue;
+      const v = values[0]!;
+      if (v === this.lastParam[i]) continue;
+      this.lastParam[i] = v;
+      if (i === 0) this.engine.setStepSize(v);
+      else if (i === 1) this.engine.setLeakage(v);
+      else this.engine.setCeilingDbfs(v);
+    }
+  }
+
+  process(inputs: Float32Array[][], outputs: Float32Array[][], parameters?: Record<string, Float32Array>): boolean {
     if (this.state === 'stopped') return false;
+    this.applyParameters(parameters);
     const input = inputs[0];
     const output = outputs[0];
     const out0 = output !== undefined && output.length > 0 ? output[0] : undefined;

@@ -1,0 +1,75 @@
+/**
+ * The package's browser entry (`ancbench/web`): the controller node for any Web Audio graph, its
+ * options and types, and the vocabulary of its meters and events. No side effects at import.
+ *
+ *   import { createControllerNode } from 'ancbench/web';
+ *   const node = await createControllerNode(context, { controller: { algorithm: 'fxnlms', taps: 64, stepSize: 0.05 }, secondaryPathModel });
+ */
+export {
+  createControllerNode,
+  loadControllerWorklet,
+  defaultNodeProbe,
+  CONTROLLER_PROCESSOR,
+  LIVE_WORKLET_FILE,
+  type ControllerNode,
+  type WrappedControllerNode,
+  type ControllerNodeApi,
+  type ControllerNodeEventMap,
+  type ControllerNodeListener,
+  type ControllerNodeState,
+  type ControllerMeters,
+  type ControllerEvent,
+  type ConnectableNode,
+  type IdentifyRequest,
+} from './controller-node.ts';
+export {
+  checkNodeOptions,
+  nodeOptionsMarkdown,
+  ControllerNodeOptionsError,
+  NODE_SETTINGS,
+  NODE_LIMITER_SETTINGS,
+  type ControllerNodeOptions,
+} from './controller-node-options.ts';
+export {
+  EVENT_TEXT,
+  EVENT_CAUSE_CODES,
+  EVENT_ACTIONS,
+  HARMONIC_FIELDS,
+  LIVE_PARAMETERS,
+  M,
+  MAX_PANEL_HARMONICS,
+  METER_FIELDS,
+  MODE_CODES,
+  RECORD_MAX_S,
+  TONE_DBFS_RANGE,
+  TONE_MAX_S,
+  TONE_MIN_HZ,
+  eventValueNames,
+  harmonicIndex,
+  meterFrameToObject,
+  type EventAction,
+  type EventCause,
+  type InputLayout,
+  type LevelCheckRequest,
+  type MeterField,
+  type PanelEvent,
+  type PanelMode,
+  type ProbeSpec,
+} from '../protocol/messages.ts';
+export type { IdentificationResult, CausalityVerdict, GeometryResult } from '../analysis/live-analysis.ts';
+export { causalityVerdict } from '../analysis/live-analysis.ts';
+export type { ControllerConfig, TonalSettings } from '../engine/controller-factory.ts';
+export type { FxlmsConfig } from '../dsp/fxlms.ts';
+export type { FxlmsImplementationSettings } from '../engine/implementation.ts';
+export {
+  ALGORITHMS,
+  FXLMS_SETTINGS,
+  TONAL_SETTINGS,
+  LIMITER_SETTINGS,
+  OUTPUT_STAGE_SETTINGS,
+  checkControllerSettings,
+  settingsProblems,
+  tableMarkdown,
+  type SettingSpec,
+  type SettingsTable,
+} from '../engine/settings.ts';
