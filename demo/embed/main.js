@@ -30,37 +30,36 @@ async function start() {
   const ctx = new AudioContext();
   await ctx.resume();
   const sim = document.querySelector('input[name=plant]:checked').value === 'sim';
-  // simulated plant: the control signal reaches the error mic after 256 samples at half gain, the noise after 384
-  const secondary = 256, primary = 384, gain = 0.5;
-  const model = new Float32Array(secondary + 1);
-  model[secondary] = gain;
   const node = await createControllerNode(ctx, {
     controller: { algorithm: 'fxnlms', taps: 256, stepSize: 0.005 },
-    ...(sim ? { secondaryPathModel: model } : {}),
-    limiter: { ceilingDbfs: -12 },
+    limiter: { ceilingDbfs: -6 },
   });
   node.on('meters', (m) => { $('att').value = Number.isFinite(m.attenuationSlowDb) ? m.attenuationSlowDb.toFixed(1) : '–'; });
   node.on('state', (s) => { $('status').textContent = s; });
   node.on('error', (e) => { $('status').textContent = e.message; });
   const delay = (samples) => new DelayNode(ctx, { delayTime: samples / ctx.sampleRate, maxDelayTime: 1 });
-  let undo;
   if (sim) {
+    // simulated plant: the noise reaches the error mic after 512 samples at gain 0.4, the control
+    // signal after 256 at 0.8 (plus the render quantum a Web Audio cycle adds)
     const source = ctx.createMediaElementSource(noise);
     const error = new GainNode(ctx);
-    source.connect(delay(primary)).connect(new GainNode(ctx, { gain })).connect(error);
-    node.connect(delay(secondary)).connect(new GainNode(ctx, { gain })).connect(error);
-    undo = node.connectInputs(source, error);
+    source.connect(delay(512)).connect(new GainNode(ctx, { gain: 0.4 })).connect(error);
+    node.connect(delay(256)).connect(new GainNode(ctx, { gain: 0.8 })).connect(error);
+    node.connectInputs(source, error);
     error.connect(new GainNode(ctx, { gain: 0.5 })).connect(ctx.destination); // listen to the error mic
-    await noise.play();
   } else {
     const stream = await navigator.mediaDevices.getUserMedia({ audio: { channelCount: 2, echoCancellation: false, noiseSuppression: false, autoGainControl: false } });
     ctx.createMediaStreamSource(stream).connect(node);
     node.connect(ctx.destination);
-    $('status').textContent = 'measuring the secondary path…';
-    await node.identify();
   }
+  $('status').textContent = 'measuring the secondary path (a quiet sweep)…';
+  await node.identify();
+  if (sim) await noise.play();
+  // the node measures the noise with control off first: its attenuation is against that level
+  $('status').textContent = 'measuring the noise with control off…';
+  await new Promise((r) => setTimeout(r, 2000));
   node.start();
-  session = { ctx, node, undo };
+  session = { ctx, node };
   $('start').disabled = true;
   $('stop').disabled = false;
 }
