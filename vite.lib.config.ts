@@ -37,6 +37,20 @@ export function workletUrlLiteral(): Plugin {
   };
 }
 
+/**
+ * The CLI reads its version from the package.json two folders above src/cli/common.ts; the built
+ * lib/cli.js (and its shared chunk) sits one folder below it.
+ */
+function packageJsonFromLib(): Plugin {
+  return {
+    name: 'ancbench-package-json-from-lib',
+    renderChunk(code) {
+      if (!code.includes("'../../package.json'") && !code.includes('"../../package.json"')) return null;
+      return { code: code.replace(/(['"])\.\.\/\.\.\/package\.json\1/g, '$1../package.json$1'), map: null };
+    },
+  };
+}
+
 const common: InlineConfig = { configFile: false, root, logLevel: 'warn', publicDir: false };
 
 /** One build per output; scripts/build-lib.mjs runs them in order. */
@@ -65,6 +79,7 @@ export const libBuilds: InlineConfig[] = [
   },
   {
     ...common,
+    plugins: [packageJsonFromLib()],
     build: {
       outDir: resolve(root, 'lib'),
       emptyOutDir: false,
@@ -72,7 +87,7 @@ export const libBuilds: InlineConfig[] = [
       minify: false,
       ssr: true,
       lib: { entry: { index: resolve(root, 'src/index.ts'), cli: resolve(root, 'src/cli/main.ts') }, formats: ['es'], fileName: (_f, name) => `${name}.js` },
-      rollupOptions: { external: isDependency },
+      rollupOptions: { external: isDependency, output: { chunkFileNames: 'shared-[hash].js' } },
     },
   },
 ];
