@@ -1,8 +1,8 @@
 // Writes the options tables of README's "Use it in your own page" from the settings tables
-// (src/web/controller-node-options.ts nodeOptionsMarkdown); a test fails while README is out of date.
+// (src/web/node-controller-options.ts nodeOptionsMarkdown); a test fails while README is out of date.
 import { readFileSync, writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
-import { nodeOptionsMarkdown } from '../src/web/controller-node-options.ts';
+import { nodeOptionsMarkdown } from '../src/web/node-controller-options.ts';
 
 export const START = '<!-- node-options:start -->';
 export const END = '<!-- node-options:end -->';

@@ -1,8 +1,9 @@
 /**
  * The package's main entry (`ancbench`): the engine, the simulator and the analysis, for Node and
  * for pages alike (nothing here touches files, the DOM or Web Audio; read files yourself and hand the
- * parsed JSON or decoded samples in). The browser's controller node is `ancbench/web`; the command
- * line is `ancbench/cli` (its `main(argv)`) and the `ancbench` binary.
+ * parsed JSON or decoded samples in; WAV files: the command line, or any decoder). The browser's
+ * controller node is `ancbench/web`; the command line is `ancbench/cli` (its `main(argv)`) and the
+ * `ancbench` binary.
  *
  *   import { parseScenario, simulate } from 'ancbench';
  *   const result = simulate(parseScenario(JSON.parse(text)));
@@ -69,6 +70,5 @@ export {
 } from './analysis/calibration.ts';
 // file formats (parsing and writing; reading the bytes is the caller's)
 export { parsePathModel, serializePathModel, createPathModel, resamplePathModel, PathModelError, type PathModel } from './io/path-model-file.ts';
-export { decodeWav, encodeWavFloat32, encodeWavInt16, WavError, type DecodedWav } from './io/wav.ts';
 export { safeJson } from './io/json.ts';
 export { browserCalibrationStore, deviceKey, type CalibrationStore, type StoredMicCalibration, type StoredOutputCalibration } from './io/calibration-store.ts';

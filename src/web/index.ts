@@ -21,7 +21,7 @@ export {
   type ControllerEvent,
   type ConnectableNode,
   type IdentifyRequest,
-} from './controller-node.ts';
+} from './node-controller.ts';
 export {
   checkNodeOptions,
   nodeOptionsMarkdown,
@@ -29,7 +29,7 @@ export {
   NODE_SETTINGS,
   NODE_LIMITER_SETTINGS,
   type ControllerNodeOptions,
-} from './controller-node-options.ts';
+} from './node-controller-options.ts';
 export {
   EVENT_TEXT,
   EVENT_CAUSE_CODES,

@@ -35,7 +35,7 @@ import {
   type ProbeSpec,
   type WorkletMessage,
 } from '../protocol/messages.ts';
-import { checkNodeOptions, modelTaps, type CheckedNodeOptions, type ControllerNodeOptions } from './controller-node-options.ts';
+import { checkNodeOptions, modelTaps, type CheckedNodeOptions, type ControllerNodeOptions } from './node-controller-options.ts';
 
 /** Name the live processor registers under. */
 export const CONTROLLER_PROCESSOR = 'ancbench-live';
