@@ -28,7 +28,9 @@ export {
   ControllerNodeOptionsError,
   NODE_SETTINGS,
   NODE_LIMITER_SETTINGS,
+  engineController,
   type ControllerNodeOptions,
+  type ControllerSettings,
 } from './node-controller-options.ts';
 export {
   EVENT_TEXT,

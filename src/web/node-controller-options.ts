@@ -13,6 +13,7 @@ import {
   checkControllerSettings,
   settingsProblems,
   tableMarkdown,
+  type SettingsObject,
   type SettingsTable,
 } from '../engine/settings.ts';
 import type { ControllerConfig } from '../engine/controller-factory.ts';
@@ -33,10 +34,23 @@ export const NODE_SETTINGS = {
 /** The part of the limiter table the live node takes (the cap; the rest of the limiter keeps its defaults). */
 export const NODE_LIMITER_SETTINGS = { ceilingDbfs: LIMITER_SETTINGS.ceilingDbfs } as const satisfies SettingsTable;
 
+/** A controller in the tables' vocabulary (docs/settings.md): what a scenario's `controller` holds, minus the simulator-only fields. */
+export type ControllerSettings = SettingsObject<typeof FXLMS_SETTINGS> | SettingsObject<typeof TONAL_SETTINGS>;
+
+/**
+ * The engine's configuration from checked settings: the tone follower's frequency source defaults to
+ * the reference mic, or to "fixed" when only `hz` is given (as for scenarios, src/plant/simulate.ts).
+ */
+export function engineController(settings: ControllerSettings): ControllerConfig {
+  const c = settings as ControllerConfig;
+  if (c.algorithm === 'tonal' && c.frequencySource === undefined) return { ...c, frequencySource: c.hz !== undefined ? 'fixed' : 'reference' };
+  return c;
+}
+
 /** What `createControllerNode` takes. */
 export interface ControllerNodeOptions {
   /** A controller configuration in the scenario vocabulary (docs/settings.md), e.g. `{ algorithm: 'fxnlms', taps: 64, stepSize: 0.05 }`. */
-  controller: ControllerConfig;
+  controller: ControllerSettings;
   /**
    * Secondary-path model ŝ: FIR taps at the context's rate, bulk delay included. Without one the node
    * passes nothing to the output until `loadModel()` or `identify()` gave it one.
@@ -118,7 +132,7 @@ export function checkNodeOptions(options: unknown): CheckedNodeOptions {
   if (problems.length) throw new ControllerNodeOptionsError(problems);
   const n = node as Partial<Record<keyof typeof NODE_SETTINGS, unknown>>;
   return {
-    controller: controller as ControllerConfig,
+    controller: engineController(controller as ControllerSettings),
     secondaryPathModel: model,
     ceilingDbfs: def((limiter as { ceilingDbfs?: number } | undefined)?.ceilingDbfs, LIMITER_SETTINGS.ceilingDbfs.default),
     inputLayout: def(n.inputLayout as InputLayout | undefined, NODE_SETTINGS.inputLayout.default),

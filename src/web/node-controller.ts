@@ -35,7 +35,7 @@ import {
   type ProbeSpec,
   type WorkletMessage,
 } from '../protocol/messages.ts';
-import { checkNodeOptions, modelTaps, type CheckedNodeOptions, type ControllerNodeOptions } from './node-controller-options.ts';
+import { checkNodeOptions, engineController, modelTaps, type CheckedNodeOptions, type ControllerNodeOptions, type ControllerSettings } from './node-controller-options.ts';
 
 /** Name the live processor registers under. */
 export const CONTROLLER_PROCESSOR = 'ancbench-live';
@@ -113,7 +113,7 @@ export interface ControllerNodeApi<P> {
   /** Clear the control filter's weights. */
   reset(): void;
   /** A new controller (same vocabulary as the options); the engine is rebuilt and its weights start again. */
-  setController(controller: ControllerConfig): Promise<void>;
+  setController(controller: ControllerSettings): Promise<void>;
   /** A new secondary-path model (FIR taps at the context's rate). */
   loadModel(taps: ArrayLike<number>, sampleRate?: number): Promise<void>;
   /** Play a sweep through the output stage, measure the secondary path, and (by default) load the model. */
@@ -371,10 +371,10 @@ class NodeApi {
     this.model = model;
   }
 
-  async setController(controller: ControllerConfig): Promise<void> {
+  async setController(controller: ControllerSettings): Promise<void> {
     this.alive('setController');
     checkControllerSettings(controller, 'controller.');
-    await this.configure(controller, this.model);
+    await this.configure(engineController(controller), this.model);
   }
 
   async loadModel(taps: ArrayLike<number>, sampleRate?: number): Promise<void> {

@@ -118,6 +118,8 @@ describe('the packed package', () => {
       for (const field of ['controller.taps', 'controller.stepSize', 'limiter.ceilingDbfs', 'rampMs']) expect(r.options).toContain(field);
       expect(r.optionsProblems).toBe(3);
       expect(r.worklet).toMatch(/could not load the controller worklet from .*\/nowhere\/ancbench-live-processor\.js.*options\.workletUrl/);
+      expect(r.implementation).toBe('tonal');
+      expect(r.badController).toMatch(/controller\.harmonics: must be an integer ≥ 1 and ≤ 8, got 9/);
       expect(r.channels).toMatch(/carries 1 channel; it needs 2.*connectInputs/);
       expect(r.afterDispose).toMatch(/start\(\) after dispose\(\); create a new node/);
       expect(r.afterDisposeAsync).toMatch(/loadModel\(\) after dispose\(\)/);

@@ -26,6 +26,11 @@ describe('checkNodeOptions', () => {
       expect(o.workletUrl).toBeNull();
     });
 
+    it('should give the tone follower the frequency source a scenario would get', () => {
+      expect(checkNodeOptions({ controller: { algorithm: 'tonal', harmonics: 2, stepSize: 0.1 } }).controller).toMatchObject({ frequencySource: 'reference' });
+      expect(checkNodeOptions({ controller: { algorithm: 'tonal', harmonics: 2, stepSize: 0.1, hz: 50 } }).controller).toMatchObject({ frequencySource: 'fixed', hz: 50 });
+    });
+
     it('should take a URL object as the worklet address and a plain array as the model', () => {
       const o = checkNodeOptions({ controller: { algorithm: 'tonal', harmonics: 2, stepSize: 0.1 }, workletUrl: new URL('https://example.org/w.js'), secondaryPathModel: [0, 0.5] });
       expect(o.workletUrl).toBe('https://example.org/w.js');

@@ -17,7 +17,7 @@ export async function native(ctx: AudioContext): Promise<number> {
   // @ts-expect-error: no such listener type
   node.on('meter', () => undefined);
   off();
-  await node.setController({ algorithm: 'tonal', harmonics: 3, stepSize: 0.1, frequencySource: 'reference' });
+  await node.setController({ algorithm: 'tonal', harmonics: 3, stepSize: 0.1 });
   const r = await node.identify({ firTaps: 128 });
   node.start();
   node.dispose();

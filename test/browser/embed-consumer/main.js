@@ -85,6 +85,10 @@ async function badUse() {
   const ctx = missing;
   await ctx.resume();
   const node = await createControllerNode(ctx, { controller, secondaryPathModel: [0, 0, 0.5] });
+  // a new controller rebuilds the engine on the audio thread; a bad one is refused on the page
+  await node.setController({ algorithm: 'tonal', harmonics: 2, stepSize: 0.1 });
+  out.implementation = node.implementation;
+  out.badController = await catchIt(() => node.setController({ algorithm: 'tonal', harmonics: 9, stepSize: 0.1 }));
   const errors = [];
   node.on('error', (e) => errors.push(e.message));
   const mono = new OscillatorNode(ctx);
