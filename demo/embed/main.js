@@ -55,9 +55,11 @@ async function start() {
   $('status').textContent = 'measuring the secondary path (a quiet sweep)…';
   await node.identify();
   if (sim) await noise.play();
-  // the node measures the noise with control off first: its attenuation is against that level
+  // the node measures the noise with control off first (its attenuation is against that level):
+  // wait until the noise reaches the error mic (at most 5 s), then for its ~1 s average to settle
   $('status').textContent = 'measuring the noise with control off…';
-  await new Promise((r) => setTimeout(r, 2000));
+  await new Promise((r) => { const off = node.on('meters', (m) => m.errPower > 1e-6 && (off(), r())); setTimeout(r, 5000); });
+  await new Promise((r) => setTimeout(r, 2500));
   node.start();
   session = { ctx, node };
   $('start').disabled = true;

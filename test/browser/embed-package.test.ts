@@ -130,11 +130,14 @@ describe('the packed package', () => {
     it('should run demo/embed unchanged and show the attenuation from the node', async () => {
       const page = await openPage('/static/index.html');
       await page.click('#start');
-      await page.waitForFunction(() => Number(document.getElementById('att')?.textContent) > 10, undefined, { timeout: 30_000 });
+      const reached = await page
+        .waitForFunction(() => Number(document.getElementById('att')?.textContent) > 10, undefined, { timeout: 45_000 })
+        .then(() => true, () => false);
       const status = await page.textContent('#status');
+      const shown = await page.textContent('#att');
       await page.click('#stop');
       await page.close();
-      expect(status).toBe('control');
+      expect({ reached, status, shown }).toMatchObject({ reached: true, status: 'control' });
     });
   });
 
