@@ -4,7 +4,7 @@
  */
 import '../src/web/zod-jitless.ts';
 import '../src/ui/app.ts';
-import { parseScenario } from '../src/plant/scenario.ts';
+import { parseScenario } from '../src/index.ts';
 import type { ScenarioEntry } from '../src/ui/sim-source.ts';
 
 const FIRST = 'workshop-extractor-hum';

@@ -17,6 +17,7 @@ interface WorkletNodeOptions {
   numberOfOutputs?: number;
   outputChannelCount?: number[];
   processorOptions?: unknown;
+  parameterData?: Record<string, number>;
 }
 
 declare abstract class AudioWorkletProcessor {

@@ -2,6 +2,7 @@ import type { Engine } from '../src/engine/engine.ts';
 import { describeImplementation } from '../src/engine/implementation.ts';
 import { LiveSequence, type LiveSequenceHost, type LiveState } from '../src/live/live-sequence.ts';
 import {
+  LIVE_PARAMETERS,
   M,
   MODE_CODES,
   checkTelemetryOptions,
@@ -28,7 +29,13 @@ import { receive, applyEngineMessage, copyWeights, fillEngineExtras, inputNonFin
  * no exports, no top-level side effects besides registerProcessor.
  */
 class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
+  static get parameterDescriptors(): typeof LIVE_PARAMETERS {
+    return LIVE_PARAMETERS;
+  }
+
   private readonly seq: LiveSequence;
+  /** Last value seen of each AudioParam (stepSize, leakage, ceilingDbfs): only a change is applied. */
+  private readonly lastParam = new Float64Array(LIVE_PARAMETERS.length);
   private readonly opts: LiveProcessorOptions;
   private readonly telemetry: Telemetry;
   private readonly chunks: ChunkSender;
@@ -55,6 +62,8 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
     this.chunks = new ChunkSender(telemetry.chunkSamples, sampleRate, false);
     this.tap = new RecordTap(this.port);
     this.seq = new LiveSequence(sampleRate, o, this);
+    const initial = options.parameterData ?? {};
+    for (let i = 0; i < LIVE_PARAMETERS.length; i++) this.lastParam[i] = initial[LIVE_PARAMETERS[i]!.name] ?? LIVE_PARAMETERS[i]!.defaultValue;
     const maxQuantum = o.maxQuantum;
     this.block = maxQuantum;
     this.ref = new Float32Array(maxQuantum);
@@ -121,9 +130,26 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
     }
   }
 
-  process(inputs: Float32Array[][], outputs: Float32Array[][]): boolean {
+  /** The node's AudioParams (src/web/node-controller.ts): a changed value goes to the engine at the next block. */
+  private applyParameters(parameters: Record<string, Float32Array> | undefined): void {
+    if (parameters === undefined) return;
+    const engine = this.seq.engine;
+    for (let i = 0; i < LIVE_PARAMETERS.length; i++) {
+      const values = parameters[LIVE_PARAMETERS[i]!.name];
+      if (values === undefined || values.length === 0) continue;
+      const v = values[0]!;
+      if (v === this.lastParam[i]) continue;
+      this.lastParam[i] = v;
+      if (i === 0) engine.setStepSize(v);
+      else if (i === 1) engine.setLeakage(v);
+      else engine.setCeilingDbfs(v);
+    }
+  }
+
+  process(inputs: Float32Array[][], outputs: Float32Array[][], parameters?: Record<string, Float32Array>): boolean {
     const seq = this.seq;
     if (seq.state === 'stopped') return false;
+    this.applyParameters(parameters);
     const input = inputs[0];
     const output = outputs[0];
     const out0 = output !== undefined && output.length > 0 ? output[0] : undefined;

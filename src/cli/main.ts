@@ -53,3 +53,4 @@ export async function main(argv: string[]): Promise<number> {
   }
   return runCommand(cmd, c.run, rest);
 }
+export { abortPendingOutputs } from '../io/files-node.ts';

@@ -375,6 +375,19 @@ export interface PortLike {
   close(): void;
 }
 
+/**
+ * AudioParams of the live processor (k-rate: read once per render quantum). A change of value is
+ * applied like the matching message (set-step-size, set-leakage, set-ceiling), so automation ramps
+ * reach the engine smoothly; a parameter that never changes from its initial value leaves the
+ * controller's own setting alone (the panel sets these by message and never touches the params).
+ */
+export const LIVE_PARAMETERS = [
+  { name: 'stepSize', defaultValue: 0.01, minValue: 0, maxValue: 1e6, automationRate: 'k-rate' },
+  { name: 'leakage', defaultValue: 0, minValue: 0, maxValue: 1e6, automationRate: 'k-rate' },
+  { name: 'ceilingDbfs', defaultValue: -6, minValue: -120, maxValue: 0, automationRate: 'k-rate' },
+] as const;
+export type LiveParameterName = (typeof LIVE_PARAMETERS)[number]['name'];
+
 /** How the live processor's input channels map to microphones. */
 export type InputLayout = 'ref-err' | 'err-only';
 

@@ -21,10 +21,10 @@
 import { LitElement, css, html } from 'lit';
 import { shared, formLayout, dialogStyles, tableStyles } from './theme.ts';
 import { dataValue as dv, fmtDb, fmtHz, readNumberField } from './format.ts';
-import { ceilingDbfsForPeakSpl, createOutputCalibration, dbfsToDbSpl, SINE_CREST_DB, type OutputCalibration } from '../engine/calibration.ts';
-import type { EffectiveCeiling } from '../engine/level-cap-check.ts';
-import type { StoredMicCalibration, StoredOutputCalibration } from '../io/calibration-store.ts';
-import { TONE_DBFS_RANGE, TONE_MAX_S, TONE_MIN_HZ } from '../protocol/messages.ts';
+import { ceilingDbfsForPeakSpl, createOutputCalibration, dbfsToDbSpl, SINE_CREST_DB, type OutputCalibration } from '../index.ts';
+import type { EffectiveCeiling } from '../index.ts';
+import type { StoredMicCalibration, StoredOutputCalibration } from '../index.ts';
+import { TONE_DBFS_RANGE, TONE_MAX_S, TONE_MIN_HZ } from '../web/index.ts';
 import { emit } from './emit.ts';
 
 /** Default calibration tone level, dBFS (AES17): low enough for a first try, loud enough for most meters. */

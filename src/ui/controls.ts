@@ -21,13 +21,13 @@
 import { LitElement, css, html } from 'lit';
 import { shared, formLayout } from './theme.ts';
 import type { ControlSettings } from '../web/session.ts';
-import type { BroadbandControllerConfig, ControllerConfig, TonalSettings } from '../engine/controller-factory.ts';
-import type { FxlmsConfig } from '../dsp/fxlms.ts';
-import type { FxlmsImplementationSettings } from '../engine/implementation.ts';
-import { emit } from './emit.ts';
+import type { BroadbandControllerConfig, ControllerConfig, TonalSettings } from '../web/index.ts';
 import './plant-options.ts';
 import type { PlantOptions } from './plant-options.ts';
-import { FXLMS_SETTINGS, LIMITER_SETTINGS, TONAL_SETTINGS } from '../engine/settings.ts';
+import type { FxlmsConfig } from '../web/index.ts';
+import type { FxlmsImplementationSettings } from '../web/index.ts';
+import { emit } from './emit.ts';
+import { FXLMS_SETTINGS, LIMITER_SETTINGS, TONAL_SETTINGS } from '../web/index.ts';
 
 /** A broadband (FxLMS / FxNLMS) configuration with its implementation fields. */
 type BroadbandConfig = BroadbandControllerConfig;

@@ -5,8 +5,8 @@
  * so a steady tone reads steady; attenuation uses the engine's own F/S-like averages live, and in
  * the simulated plant the control-off twin the simulator computes alongside.
  */
-import { M, MAX_PANEL_HARMONICS, harmonicIndex } from '../protocol/messages.ts';
-import { powerToDbfs } from '../dsp/units.ts';
+import { M, MAX_PANEL_HARMONICS, harmonicIndex } from '../web/index.ts';
+import { powerToDbfs } from '../index.ts';
 
 export const FAST_S = 0.125;
 export const SLOW_S = 1;

@@ -4,7 +4,7 @@
  */
 import { LitElement, css, html } from 'lit';
 import { shared } from './theme.ts';
-import { EVENT_TEXT, type PanelEvent } from '../protocol/messages.ts';
+import { EVENT_TEXT, type PanelEvent } from '../web/index.ts';
 
 export const MAX_EVENTS = 200;
 

@@ -16,8 +16,8 @@ import { dataValue as dv, fmtDb, fmtHz, readNumberField } from './format.ts';
 import type { PlotConfig, AncbPlot } from './plot.ts';
 import './plot.ts';
 import type { LiveLevelCheckReport } from '../web/level-check-report.ts';
-import type { LevelCheckRequest } from '../protocol/messages.ts';
-import { DEFAULT_HOLD_S, DEFAULT_GAP_S, DEFAULT_OVER_DB, DEFAULT_START_DBFS, limitsTruePeak, TRUE_PEAK_TOLERANCE_DB } from '../engine/level-cap-check.ts';
+import type { LevelCheckRequest } from '../web/index.ts';
+import { DEFAULT_HOLD_S, DEFAULT_GAP_S, DEFAULT_OVER_DB, DEFAULT_START_DBFS, limitsTruePeak, TRUE_PEAK_TOLERANCE_DB } from '../index.ts';
 import { emit } from './emit.ts';
 
 export const LC_RAMP_S_DEFAULT = 2;

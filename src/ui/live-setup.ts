@@ -10,8 +10,7 @@ import { LitElement, css, html } from 'lit';
 import { shared, formLayout } from './theme.ts';
 import { fmtDb, fmtMs } from './format.ts';
 import type { DeviceChoice, DeviceLists, MicLayout } from '../web/devices.ts';
-import type { CausalityVerdict } from '../analysis/bounds.ts';
-import type { GeometryResult, IdentificationResult } from '../analysis/live-analysis.ts';
+import type { CausalityVerdict, GeometryResult, IdentificationResult } from '../web/index.ts';
 import { emit } from './emit.ts';
 
 export const PROBE_RANGE_DBFS: [number, number] = [-50, -12];

@@ -10,7 +10,7 @@ import { LitElement, css, html } from 'lit';
 import { shared } from './theme.ts';
 import { emit } from './emit.ts';
 import { fmtDb } from './format.ts';
-import { DEFAULT_OUTPUT_CONSTRAINT, DEFAULT_OUTPUT_MARGIN_DB, type OutputConstraintMethod } from '../dsp/output-constraint.ts';
+import { DEFAULT_OUTPUT_CONSTRAINT, DEFAULT_OUTPUT_MARGIN_DB, type OutputConstraintMethod } from '../web/index.ts';
 
 const METHODS: { value: OutputConstraintMethod; label: string }[] = [
   { value: 'rescale', label: 'Rescale the filter at the cap' },

@@ -12,7 +12,7 @@
 import { LitElement, css, html } from 'lit';
 import { shared } from './theme.ts';
 import { emit } from './emit.ts';
-import type { BroadbandControllerConfig } from '../engine/controller-factory.ts';
+import type { BroadbandControllerConfig } from '../web/index.ts';
 
 export interface PlantOptions {
   onlineModel?: { method: 'auxiliary-noise' } | undefined;

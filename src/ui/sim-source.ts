@@ -6,8 +6,8 @@
  */
 import { LitElement, css, html } from 'lit';
 import { shared, formLayout } from './theme.ts';
-import type { Scenario } from '../plant/scenario.ts';
-import { causalityVerdict } from '../analysis/bounds.ts';
+import type { Scenario } from '../index.ts';
+import { causalityVerdict } from '../web/index.ts';
 import { scenarioDelays, MONITOR_CEILING_DBFS } from '../web/session.ts';
 import { emit } from './emit.ts';
 
