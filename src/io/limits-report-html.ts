@@ -8,6 +8,7 @@
  * the ceiling), the limiter's gain-reduction history, the scenario's closed loop (peak output against the cap)
  * and every event of both runs.
  */
+import { REPORT } from '../palette.ts';
 import type { EngineEvent } from '../engine/events.ts';
 import type { LevelCapResult } from '../plant/level-cap-check.ts';
 import { renderReportHtml, REPORT_COLORS, type PlotSpec, type ReportAssets, type ReportSection } from './report-html.ts';
@@ -41,8 +42,8 @@ export interface LimitsReportInput {
   footer?: string;
 }
 
-/** Colours of the level-cap plots (ours), beside the shared report colours. */
-const CAP = '#be123c';
+/** Colours of the level-cap plots, beside the shared report colours (the project's palette, src/palette.ts). */
+const CAP = REPORT.cap;
 const SAMPLE_PEAK = REPORT_COLORS.on;
 const TRUE_PEAK = REPORT_COLORS.model;
 const LEVEL = REPORT_COLORS.truth;

@@ -26,6 +26,7 @@ import type { FxlmsConfig } from '../dsp/fxlms.ts';
 import type { FxlmsImplementationSettings } from '../engine/implementation.ts';
 import { emit } from './emit.ts';
 import { FXLMS_SETTINGS, LIMITER_SETTINGS, TONAL_SETTINGS } from '../engine/settings.ts';
+import { DEFAULT_CROSSFADE_MS } from '../engine/engine.ts';
 
 /** A broadband (FxLMS / FxNLMS) configuration with its implementation fields. */
 type BroadbandConfig = FxlmsConfig & FxlmsImplementationSettings;
@@ -59,6 +60,23 @@ export function defaultStandby(c: ControllerConfig): ControllerConfig {
   return c.algorithm === 'tonal' ? { ...DEFAULT_FX } : { ...DEFAULT_TONAL };
 }
 
+/** A broadband configuration in words ("FxNLMS, 64 taps"). */
+export function broadbandName(c: ControllerConfig): string {
+  return c.algorithm === 'tonal' ? 'the tone follower' : `${c.algorithm === 'fxlms' ? 'FxLMS' : 'FxNLMS'}, ${c.taps} taps`;
+}
+
+/**
+ * Which algorithm change crossfades and which rebuilds, for the settings shown: the engine keeps one
+ * controller of the other family ready (the standby), and only a switch to exactly that one crossfades.
+ */
+export function switchNote(c: ControllerConfig, standby: ControllerConfig | undefined): string {
+  const ready = standby && (standby.algorithm === 'tonal') !== (c.algorithm === 'tonal') ? standby : null;
+  const target = ready ? (ready.algorithm === 'tonal' ? 'the tone follower' : broadbandName(ready)) : null;
+  const crossfade = target ? `A switch to ${target} crossfades in ${SWITCH_TEXT_MS} ms without a restart (it is kept ready beside this one). ` : '';
+  return `${crossfade}Any other change of algorithm (FxLMS ↔ FxNLMS included), filter length or implementation builds a new controller: its weights start from zero, and the simulated plant restarts (control stays on).`;
+}
+const SWITCH_TEXT_MS = DEFAULT_CROSSFADE_MS;
+
 export const TAPS_RANGE = range(FXLMS_SETTINGS.taps);
 export const LEAK_RANGE = range(FXLMS_SETTINGS.leakage);
 /**
@@ -76,8 +94,11 @@ export class AncbControls extends LitElement {
     capNote: {},
     runsAs: {},
     refusal: {},
+    oneMic: { type: Boolean },
     problem: { state: true },
   };
+  /** One-mic layout (live, error mic only): broadband control and the reference-mic tone source are not offered. */
+  declare oneMic: boolean;
 
   static override styles = [
     shared,
@@ -141,6 +162,7 @@ export class AncbControls extends LitElement {
     this.capNote = '';
     this.runsAs = '';
     this.refusal = '';
+    this.oneMic = false;
   }
 
   override willUpdate(changed: Map<string, unknown>): void {
@@ -246,7 +268,7 @@ export class AncbControls extends LitElement {
       <span class="pair"><input id="harmonics" type="number" min=${HARMONICS_RANGE[0]} max=${HARMONICS_RANGE[1]} step="1" .value=${String(c.harmonics)} @change=${this.setHarmonics} /><span class="unit">f₀ … ${c.harmonics}·f₀</span></span>
       <label for="fsrc">Tone from</label>
       <select id="fsrc" @change=${(e: Event) => this.setSource((e.target as HTMLSelectElement).value as 'reference' | 'error' | 'fixed')}>
-        <option value="reference" ?selected=${src === 'reference'}>reference mic (tracked)</option>
+        <option value="reference" ?selected=${src === 'reference'} ?disabled=${this.oneMic}>reference mic (tracked)${this.oneMic ? ' — needs a reference mic' : ''}</option>
         <option value="error" ?selected=${src === 'error'}>error mic (tracked, one-mic mode)</option>
         <option value="fixed" ?selected=${src === 'fixed'}>fixed frequency</option>
       </select>
@@ -279,10 +301,11 @@ export class AncbControls extends LitElement {
       <div class="grid">
         <label for="alg">Algorithm</label>
         <select id="alg" @change=${this.setAlgorithm} .value=${c.algorithm}>
-          <option value="fxnlms" ?selected=${c.algorithm === 'fxnlms'}>FxNLMS (broadband, normalised)</option>
-          <option value="fxlms" ?selected=${c.algorithm === 'fxlms'}>FxLMS (broadband)</option>
+          <option value="fxnlms" ?selected=${c.algorithm === 'fxnlms'} ?disabled=${this.oneMic}>FxNLMS (broadband, normalised)${this.oneMic ? ' — needs a reference mic' : ''}</option>
+          <option value="fxlms" ?selected=${c.algorithm === 'fxlms'} ?disabled=${this.oneMic}>FxLMS (broadband)${this.oneMic ? ' — needs a reference mic' : ''}</option>
           <option value="tonal" ?selected=${c.algorithm === 'tonal'}>Tone follower (narrowband)</option>
         </select>
+        <span></span><span class="unit" id="switch-note">${switchNote(c, this.settings.standby)}</span>
 
         ${c.algorithm === 'tonal' ? this.renderTonal(c) : html`<label for="taps">Filter length</label>
         <span class="pair"><input id="taps" type="number" min=${TAPS_RANGE[0]} max=${TAPS_RANGE[1]} step="1" .value=${String(c.taps)} @change=${this.setTaps} /><span class="unit">taps</span></span>
