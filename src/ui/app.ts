@@ -695,14 +695,15 @@ export class AncbApp extends LitElement {
         const was = this.guardState;
         this.guardState = d.guardState;
         if (this.running) {
+          const unverified = this.source === 'live' && this.trust === 'unverified' && this.controlOn ? ' Control runs against an UNVERIFIED model.' : '';
           this.status =
-            d.guardState === 2
+            (d.guardState === 2
               ? 'Guard: the anti-noise output is muted (the cause is in the events). Press Resume to let control start again.'
               : d.guardState === 1
                 ? 'Guard: adaptation is frozen; the anti-noise keeps its last weights (the cause is in the events). Press Resume to adapt again.'
                 : was > 0 && this.controlOn
                   ? 'Guard released: control is running again.'
-                  : this.status;
+                  : this.status) + (d.guardState > 0 || (was > 0 && this.controlOn) ? unverified : '');
         }
       }
       const setup = this.$<AncbLiveSetup>('ancb-live-setup');
@@ -710,7 +711,9 @@ export class AncbApp extends LitElement {
     }
     if (nowMs - this.lastPlotMs >= PLOT_INTERVAL_MS && d.histT.length > 1) {
       this.lastPlotMs = nowMs;
-      this.$<AncbPlot>('#plot-att')?.setData([d.histT, d.histNow, d.histAvg]);
+      // the history shows what the readouts may show: nothing while no figure is a measurement of control
+      const shown = this.source === 'sim' || (this.trust !== 'unverified' && d.attBasis !== 'none');
+      this.$<AncbPlot>('#plot-att')?.setData(shown ? [d.histT, d.histNow, d.histAvg] : [d.histT, d.histT.map(() => null), d.histT.map(() => null)]);
       if (d.toneT.length > 1) {
         this.$<AncbPlot>('#plot-tone')?.setData([d.toneT, d.toneF]);
         const s = `${fmtHz(d.toneHz)}${d.toneLocked === 1 ? ', locked' : ', searching'}`;
@@ -876,9 +879,10 @@ export class AncbApp extends LitElement {
   /** The control state as the chip beside the control button shows it. */
   private controlChip(): { state: 'off' | 'on' | 'muted' | 'frozen'; text: string } {
     if (!this.running || !this.controlOn) return { state: 'off', text: 'control off' };
-    if (this.guardState === 2) return { state: 'muted', text: 'muted by the guard' };
-    if (this.guardState === 1) return { state: 'frozen', text: 'on, adaptation frozen' };
-    return { state: 'on', text: this.source === 'live' && this.trust === 'unverified' ? 'on (model unverified)' : 'control on' };
+    const unverified = this.source === 'live' && this.trust === 'unverified' ? ', model unverified' : '';
+    if (this.guardState === 2) return { state: 'muted', text: `muted by the guard${unverified}` };
+    if (this.guardState === 1) return { state: 'frozen', text: `on, adaptation frozen by the guard${unverified}` };
+    return { state: 'on', text: `control on${unverified}` };
   }
 
   private get canControl(): boolean {

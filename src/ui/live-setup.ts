@@ -200,7 +200,7 @@ export class AncbLiveSetup extends LitElement {
     return html`<dl>
         <dt>Round trip</dt><dd data-field="delay">${d.responseFound ? html`${fmtMs(r.delayMs, 2)} (${r.delaySamples} samples)` : 'not found (no response)'}</dd>
         <dt>Browser reports</dt><dd>${fmtMs(this.reportedLatencyMs)} (output + base latency; the measurement also includes input and air)</dd>
-        <dt>Measurement SNR</dt><dd>${r.snrDb === null ? 'not measured' : `${fmtDb(r.snrDb)} dB`}</dd>
+        <dt>Measurement SNR</dt><dd>${r.snrDb === null ? 'not measured' : Number.isFinite(r.snrDb) ? `${fmtDb(r.snrDb)} dB` : 'none: no response'}</dd>
         <dt>Loudspeaker → ref mic</dt><dd>${d.responseFound ? `${fmtDb(r.feedbackRatioDb)} dB re error mic` : 'not meaningful without a response'}</dd>
         <dt>Model</dt><dd>${r.model.length} taps</dd>
       </dl>

@@ -11,7 +11,7 @@ function readmeBrowserSection(): string {
   const start = text.indexOf('## In the browser');
   expect(start).toBeGreaterThan(0);
   const end = text.indexOf('\n## ', start + 3);
-  return text.slice(start, end < 0 ? undefined : end);
+  return text.slice(start, end < 0 ? undefined : end).replace(/\s+/g, " ");
 }
 
 /** README's promise: the attenuation passes this figure on the default demo within DEMO_WAIT_S of pressing the button. */
