@@ -179,7 +179,7 @@ export function renderLimitsReport(input: LimitsReportInput, assets: ReportAsset
       plots: [
         {
           title: 'Closed-loop output peak',
-          caption: 'Sample peak of the controller output after the limiter, per 10 ms; gaps are silence (control off, or muted).',
+          caption: 'Sample peak of the anti-noise (the controller’s output) after the limiter, per 10 ms; gaps are silence (control off, or muted).',
           xLabel: 'time (s)',
           yLabel: 'dBFS',
           xScale: 'linear',

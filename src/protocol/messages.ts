@@ -102,7 +102,7 @@ export const HARMONIC_FIELDS = [
   /** Peak amplitude of the disturbance at the error mic (before control) and of the residual (after). */
   'Before',
   'After',
-  /** Counter-signal phase at the error mic relative to the disturbance, degrees (±180 = anti-phase). */
+  /** Anti-noise phase at the error mic relative to the disturbance, degrees (±180 = anti-phase). */
   'PhaseDeg',
   /** 20·log10(before / after), dB. */
   'AttDb',

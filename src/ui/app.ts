@@ -1221,7 +1221,7 @@ export class AncbApp extends LitElement {
               <ancb-meter channel="ref" label="Reference mic"></ancb-meter>
               <ancb-meter channel="err" label="Error mic" .splOffsetDb=${errSpl ? errSpl.calibration.sensitivityDbSpl : null}
                 .splNote=${errSpl ? `mic calibration, sound within ${fmtHz(errSpl.calibration.validFromHz)} … ${fmtHz(errSpl.calibration.validToHz)}` : ''}></ancb-meter>
-              <ancb-meter channel="out" label="Output" note="RMS bar, peak marker (1 s hold), red: cap" .splOffsetDb=${outCal ? maxSensitivity(outCal).db : null} splPrefix="≤ "
+              <ancb-meter channel="out" label="Output (anti-noise)" note="RMS bar, peak marker (1 s hold), red: cap" .splOffsetDb=${outCal ? maxSensitivity(outCal).db : null} splPrefix="≤ "
                 .splNote=${outCal ? `at the ear, bound from the most sensitive reading (${fmtHz(maxSensitivity(outCal).hz)}); holds for ${fmtHz(outCal.minHz)} … ${fmtHz(outCal.maxHz)}` : ''}></ancb-meter>
               <ancb-meter channel="gr" label="Limiter" unit="dB GR" min="0" max="24" note="gain reduction; the cap limits sample peaks, a true peak can read up to about 6 dB higher"></ancb-meter>
               <p class="small muted" id="true-peak"></p>

@@ -61,6 +61,9 @@ export class AncbTones extends LitElement {
       .note {
         margin: 0.4rem 0 0;
       }
+      .legend {
+        margin: 0 0 0.3rem;
+      }
       th,
       td {
         padding: 0.2rem 0.5rem;
@@ -125,9 +128,10 @@ export class AncbTones extends LitElement {
       ${this.rows === 0
         ? html`<p class="muted">Not running. Choose “Tone follower” as the algorithm to control tones and harmonics.</p>`
         : html`<div class="head"><span class="muted">fundamental</span><span class="f0" aria-live="off">—</span><span class="lock"></span></div>
+            <p class="legend small"><span class="meas">before, after, attenuation <span class="tag">measured</span></span> · <span class="est">phase error <span class="tag">estimate</span></span></p>
             <div class="scroll"><table>
               <thead>
-                <tr><th scope="col">#</th><th scope="col">frequency</th><th scope="col" class="meas">before <span class="tag">measured</span></th><th scope="col" class="meas">after <span class="tag">measured</span></th><th scope="col" class="meas">attenuation <span class="tag">measured</span></th><th scope="col" class="est">phase error <span class="tag">estimate</span></th></tr>
+                <tr><th scope="col">#</th><th scope="col">frequency</th><th scope="col">before</th><th scope="col">after</th><th scope="col">atten.</th><th scope="col" class="est">phase err.</th></tr>
               </thead>
               <tbody>
                 ${rows.map((k) => html`<tr><td>${k + 1}</td><td id=${`hz${k}`}>—</td><td id=${`b${k}`}>—</td><td id=${`a${k}`}>—</td><td id=${`att${k}`}>—</td><td id=${`ph${k}`} class="est">—</td></tr>`)}
