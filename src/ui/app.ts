@@ -288,7 +288,8 @@ export class AncbApp extends LitElement {
       }
       .levels {
         display: grid;
-        grid-template-columns: minmax(14rem, auto) 1fr;
+        /* the readouts' column keeps to the readouts: the basis text under them wraps instead of widening it */
+        grid-template-columns: minmax(14rem, 27rem) 1fr;
         gap: 0.6rem 1.6rem;
         align-items: center;
       }
