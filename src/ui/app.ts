@@ -28,7 +28,7 @@ import { DisplayState } from './display-state.ts';
 import { fmtDb, fmtHz, fmtLevel } from './format.ts';
 import { SPECTRUM_UNIT } from '../analysis/welch.ts';
 import { diagnose } from './identification-text.ts';
-import { broadbandName } from './controls.ts';
+import { broadbandName, rebuildReason } from './controller-text.ts';
 import { AncbMeter } from './meter-bar.ts';
 import { AncbPlot, type PlotConfig } from './plot.ts';
 import { AncbEvents } from './events-list.ts';
@@ -53,7 +53,6 @@ import { analysis } from '../web/analysis-client.ts';
 import { listDevices, loadChoice, reconcileChoice, requestMicrophonePermission, saveChoice, type DeviceChoice, type DeviceLists } from '../web/devices.ts';
 import { causalityVerdict, type CausalityVerdict, type GeometryResult, type IdentificationResult } from '../analysis/live-analysis.ts';
 import type { PanelEvent } from '../protocol/messages.ts';
-import type { ControllerConfig } from '../engine/controller-factory.ts';
 
 const PLOT_INTERVAL_MS = 100;
 const SPECTRUM_INTERVAL_MS = 500;
@@ -105,22 +104,6 @@ export const DEFAULT_SETTINGS: ControlSettings = {
   adaptation: true,
   standby: defaultStandby({ algorithm: 'fxnlms', taps: 64, stepSize: 0.002 }),
 };
-
-/** Why a settings change built a new controller instead of switching or changing it in place. */
-export function rebuildReason(prev: ControllerConfig, next: ControllerConfig, standby: ControllerConfig | undefined): string {
-  const name = (c: ControllerConfig): string => (c.algorithm === 'tonal' ? 'the tone follower' : c.algorithm === 'fxlms' ? 'FxLMS' : 'FxNLMS');
-  if (prev.algorithm !== next.algorithm) {
-    const ready = standby && standby.algorithm !== prev.algorithm && (standby.algorithm === 'tonal') !== (prev.algorithm === 'tonal') ? standby : null;
-    if ((prev.algorithm === 'tonal') === (next.algorithm === 'tonal')) return `${name(prev)} → ${name(next)} is a different algorithm; only the tone follower ↔ broadband switch crossfades`;
-    return ready ? `${name(next)} was not the controller kept ready for a crossfade (that is ${broadbandName(ready)})` : `no ${name(next)} was kept ready for a crossfade`;
-  }
-  if (prev.algorithm !== 'tonal' && next.algorithm !== 'tonal') {
-    if (prev.taps !== next.taps) return `filter length ${prev.taps} → ${next.taps} taps`;
-    if ((prev.implementation ?? 'auto') !== (next.implementation ?? 'auto') || (prev.fdConstraint ?? 'full') !== (next.fdConstraint ?? 'full')) return 'implementation changed';
-    if ((prev.update ?? 'sample') !== (next.update ?? 'sample')) return 'update changed';
-  }
-  return 'settings that need a new filter changed';
-}
 
 /** The most sensitive calibrated frequency: its RMS sensitivity bounds the SPL of any output in the calibrated range. */
 function maxSensitivity(cal: OutputCalibration): { db: number; hz: number } {

@@ -26,7 +26,7 @@ import type { FxlmsConfig } from '../dsp/fxlms.ts';
 import type { FxlmsImplementationSettings } from '../engine/implementation.ts';
 import { emit } from './emit.ts';
 import { FXLMS_SETTINGS, LIMITER_SETTINGS, TONAL_SETTINGS } from '../engine/settings.ts';
-import { DEFAULT_CROSSFADE_MS } from '../engine/engine.ts';
+import { switchNote } from './controller-text.ts';
 
 /** A broadband (FxLMS / FxNLMS) configuration with its implementation fields. */
 type BroadbandConfig = FxlmsConfig & FxlmsImplementationSettings;
@@ -59,23 +59,6 @@ export const DEFAULT_TONAL: TonalSettings = { algorithm: 'tonal', harmonics: 1, 
 export function defaultStandby(c: ControllerConfig): ControllerConfig {
   return c.algorithm === 'tonal' ? { ...DEFAULT_FX } : { ...DEFAULT_TONAL };
 }
-
-/** A broadband configuration in words ("FxNLMS, 64 taps"). */
-export function broadbandName(c: ControllerConfig): string {
-  return c.algorithm === 'tonal' ? 'the tone follower' : `${c.algorithm === 'fxlms' ? 'FxLMS' : 'FxNLMS'}, ${c.taps} taps`;
-}
-
-/**
- * Which algorithm change crossfades and which rebuilds, for the settings shown: the engine keeps one
- * controller of the other family ready (the standby), and only a switch to exactly that one crossfades.
- */
-export function switchNote(c: ControllerConfig, standby: ControllerConfig | undefined): string {
-  const ready = standby && (standby.algorithm === 'tonal') !== (c.algorithm === 'tonal') ? standby : null;
-  const target = ready ? (ready.algorithm === 'tonal' ? 'the tone follower' : broadbandName(ready)) : null;
-  const crossfade = target ? `A switch to ${target} crossfades in ${SWITCH_TEXT_MS} ms without a restart (it is kept ready beside this one). ` : '';
-  return `${crossfade}Any other change of algorithm (FxLMS ↔ FxNLMS included), filter length or implementation builds a new controller: its weights start from zero, and the simulated plant restarts (control stays on).`;
-}
-const SWITCH_TEXT_MS = DEFAULT_CROSSFADE_MS;
 
 export const TAPS_RANGE = range(FXLMS_SETTINGS.taps);
 export const LEAK_RANGE = range(FXLMS_SETTINGS.leakage);
