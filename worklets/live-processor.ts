@@ -49,6 +49,8 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
   private readonly out: Float32Array;
   private readonly lv = new Float64Array(2);
   private lastChannels = -1;
+  /** An 'input-missing' was reported and the input has not come back yet. */
+  private inputLost = false;
   private warnedChannels = false;
 
   constructor(options: WorkletNodeOptions) {
@@ -159,8 +161,16 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
     const cond = this.cond;
     const channels = cond.begin(input);
     const timeS = seq.clockS;
-    if (channels === 0 && this.lastChannels !== 0) tel.event(timeS, 'input-missing', 'none', 0, NaN, NaN, false);
-    if (channels > 0 && this.lastChannels === 0) tel.event(timeS, 'input-restored', 'none', channels, NaN, NaN, false);
+    // the first quanta may arrive before the microphones are connected: that is not a loss of input,
+    // so 'input-missing' needs input seen before, and 'input-restored' follows only a reported loss
+    if (channels === 0 && this.lastChannels > 0) {
+      tel.event(timeS, 'input-missing', 'none', 0, NaN, NaN, false);
+      this.inputLost = true;
+    }
+    if (channels > 0 && this.inputLost) {
+      tel.event(timeS, 'input-restored', 'none', channels, NaN, NaN, false);
+      this.inputLost = false;
+    }
     if (channels === 1 && this.opts.inputLayout === 'ref-err' && !this.warnedChannels) {
       this.warnedChannels = true;
       tel.event(timeS, 'channel-count', 'none', 2, 1, NaN, false);

@@ -11,7 +11,7 @@
  *
  * Causality (Kuo & Morgan, "Active noise control: a tutorial review", Proc. IEEE 87(6), 1999, from
  * memory): broadband feedforward control needs the noise to take at least as long from the reference
- * microphone to the error microphone (primary delay) as the controller's output takes to get there
+ * microphone to the error microphone (primary delay) as the anti-noise takes to get there
  * (secondary-path bulk delay, which includes converter and audio I/O latency). With a deficit only the
  * predictable part (tones, periodic noise, strongly coloured noise) can be cancelled.
  */

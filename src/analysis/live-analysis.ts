@@ -11,7 +11,7 @@
  *    control: a tutorial review", Proc. IEEE 87(6), 1999: broadband feedforward control needs the
  *    primary path to be no shorter than the secondary path plus processing; from memory).
  */
-import { welchPsd } from './welch.ts';
+import { psdToDbfsPerHz, welchPsd } from './welch.ts';
 import { deconvolveSweep } from './sweep-deconvolve.ts';
 import { onsetDelaySamples, pathFrequencyResponse } from './path-model.ts';
 import { estimateDelay } from './delay-estimate.ts';
@@ -24,7 +24,7 @@ export const HISTORY_S = 2;
 
 export interface SpectraView {
   frequencyHz: Float64Array;
-  /** Error-mic PSD with control off and on, dB re 1 FS²/Hz (NaN where no data yet). */
+  /** Error-mic PSD with control off and on in the project's spectrum scale, dBFS/Hz AES17 (psdToDbfsPerHz; NaN where no data yet). */
   offDb: Float64Array;
   onDb: Float64Array;
   resolutionHz: number;
@@ -181,7 +181,7 @@ export class LiveAnalysis {
       const out = new Float64Array(bins).fill(NaN);
       if (r.filled < L) return out;
       const psd = welchPsd(r.latest(), fs, { segmentLength: L }).psd;
-      for (let k = 0; k < bins; k++) out[k] = 10 * Math.log10(Math.max(psd[k]!, 1e-30));
+      for (let k = 0; k < bins; k++) out[k] = psdToDbfsPerHz(Math.max(psd[k]!, 1e-30));
       return out;
     };
     return {

@@ -382,3 +382,13 @@ function windowedSegment(x: SampleSource, start: number, window: Float64Array, o
   mean /= L;
   for (let n = 0; n < L; n++) out[n] = (out[n]! - mean) * window[n]!;
 }
+
+/**
+ * The project's one spectrum scale (panel, reports): power spectral density in dBFS per hertz on the
+ * AES17 scale, 10·log10(2·PSD) with PSD the one-sided density of the mean square (FS²/Hz). Summing
+ * 10^(dB/10)·Δf over a band's bins gives the band's level in AES17 dBFS (a full-scale sine: 0 dBFS).
+ */
+export const SPECTRUM_UNIT = 'dBFS/Hz (AES17)';
+export function psdToDbfsPerHz(psd: number): number {
+  return 10 * Math.log10(2 * psd);
+}

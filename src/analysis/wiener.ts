@@ -5,8 +5,10 @@
  * With r = s * x the filtered reference and d the control-off error signal, the error is
  * e = d + wᵀr(n). Minimising E[e²] gives the normal equations R·w = −p, with
  *   R_k = E[r(n)·r(n − k)]   (Toeplitz, k = 0 … L − 1),   p_k = E[d(n)·r(n − k)],
- * and the least error power E_min = E[d²] − pᵀR⁻¹p (Widrow & Stearns, *Adaptive Signal
- * Processing*, 1985; Elliott, *Signal Processing for Active Control*, 2001, ch. 3). Correlations are the
+ * and the least error power E_min = E[d²] − pᵀR⁻¹p. Widrow & Stearns, *Adaptive Signal
+ * Processing*, 1985, ch. 2, write R·w* = p for e = d − y; the form here follows from theirs with
+ * w → −w for this project's e = d + y (see also Elliott, *Signal Processing for Active Control*,
+ * 2001, ch. 3). Correlations are the
  * biased estimates (divided by N), computed by FFT, so R is positive semi-definite; the system is
  * solved by the Levinson recursion, and E_min is then measured by running the optimal filter on the data.
  */

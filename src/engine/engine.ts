@@ -13,7 +13,7 @@ import { DivergenceGuard, GuardBlockInfo, type GuardConfig } from './guard.ts';
  *   guard → controller → high-pass → start/stop ramp → limiter (look-ahead, ceiling) → meters
  *
  * Every output sample passes the limiter, whose hard ceiling no sample can exceed (non-finite
- * values become silence and are counted). Contract (DESIGN.md): the constructor allocates everything
+ * values become silence and are counted). Contract (DEVELOPERS.md, src/dsp): the constructor allocates everything
  * for the largest block; `process` handles one block with no allocation, no closures, no exceptions
  * and no logging. Parameter and mode changes are queued and applied at the next block boundary;
  * starts and stops are ramped.

@@ -8,6 +8,7 @@
  * the ceiling), the limiter's gain-reduction history, the scenario's closed loop (peak output against the cap)
  * and every event of both runs.
  */
+import { REPORT } from '../palette.ts';
 import type { EngineEvent } from '../engine/events.ts';
 import { capVerdict, limitsTruePeak, type LevelCapResult } from '../engine/level-cap-check.ts';
 import { TRUE_PEAK_FILTER_BOUND_DB } from '../dsp/limiter.ts';
@@ -42,8 +43,8 @@ export interface LimitsReportInput {
   footer?: string;
 }
 
-/** Colours of the level-cap plots (ours), beside the shared report colours. */
-const CAP = '#be123c';
+/** Colours of the level-cap plots, beside the shared report colours (the project's palette, src/palette.ts). */
+const CAP = REPORT.cap;
 const SAMPLE_PEAK = REPORT_COLORS.on;
 const TRUE_PEAK = REPORT_COLORS.model;
 const LEVEL = REPORT_COLORS.truth;
@@ -181,7 +182,7 @@ export function renderLimitsReport(input: LimitsReportInput, assets: ReportAsset
       plots: [
         {
           title: 'Closed-loop output peak',
-          caption: 'Sample peak of the controller output after the limiter, per 10 ms; gaps are silence (control off, or muted).',
+          caption: 'Sample peak of the anti-noise (the controller’s output) after the limiter, per 10 ms; gaps are silence (control off, or muted).',
           xLabel: 'time (s)',
           yLabel: 'dBFS',
           xScale: 'linear',

@@ -16,6 +16,8 @@
  */
 import type { RecordingAnalysis } from '../analysis/recording-analysis.ts';
 import { pathFrequencyResponse } from '../analysis/path-model.ts';
+import { SPECTRUM_UNIT, psdToDbfsPerHz } from '../analysis/welch.ts';
+import { REPORT } from '../palette.ts';
 import { describeOutputLimit, type SimulationResult } from '../plant/simulate.ts';
 
 export interface ReportAssets {
@@ -79,15 +81,15 @@ export interface ReportDocument {
   footer?: string;
 }
 
-/** Colours of the report (ours): one per role, the same in every plot. */
+/** Colours of the report: one per role, the same in every plot (the project's palette, src/palette.ts). */
 export const REPORT_COLORS = {
-  off: '#b45309',
-  on: '#0f766e',
-  reference: '#6d28d9',
-  bound: '#be123c',
-  model: '#1d4ed8',
-  truth: '#9ca3af',
-  coherence: '#334155',
+  off: REPORT.off,
+  on: REPORT.on,
+  reference: REPORT.reference,
+  bound: REPORT.bound,
+  model: REPORT.model,
+  truth: REPORT.truth,
+  coherence: REPORT.coherence,
 } as const;
 
 /** Points kept per plot (x ≤ 0 dropped on log axes, then every k-th point); time lines are averaged to 4000. */
@@ -154,7 +156,7 @@ function embedPlot(p: PlotSpec, id: string): EmbeddedPlot {
 }
 
 const STYLE = `
-:root { --ink: #1f2937; --muted: #6b7280; --line: #e5e7eb; --paper: #ffffff; --wash: #f8fafc; }
+:root { --ink: ${REPORT.ink}; --muted: ${REPORT.muted}; --line: ${REPORT.line}; --paper: ${REPORT.paper}; --wash: ${REPORT.wash}; }
 * { box-sizing: border-box; }
 body { margin: 0; font: 15px/1.5 system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; color: var(--ink); background: var(--wash); }
 main { max-width: 1180px; margin: 0 auto; padding: 24px 20px 48px; }
@@ -162,9 +164,9 @@ h1 { font-size: 24px; margin: 0 0 4px; }
 h2 { font-size: 18px; margin: 32px 0 8px; padding-bottom: 4px; border-bottom: 1px solid var(--line); }
 .subtitle { color: var(--muted); margin: 0 0 16px; }
 .verdict { border-left: 6px solid; padding: 10px 14px; margin: 12px 0 8px; background: var(--paper); border-radius: 4px; }
-.verdict.broadband { border-color: #15803d; }
-.verdict.predictable-only { border-color: #b45309; }
-.verdict.unknown { border-color: #9ca3af; }
+.verdict.broadband { border-color: ${REPORT.verdictBroadband}; }
+.verdict.predictable-only { border-color: ${REPORT.verdictPredictable}; }
+.verdict.unknown { border-color: ${REPORT.verdictUnknown}; }
 .verdict b { text-transform: uppercase; letter-spacing: 0.04em; font-size: 12px; display: block; color: var(--muted); }
 table.facts { border-collapse: collapse; background: var(--paper); min-width: 50%; }
 table.facts td { padding: 4px 14px 4px 8px; border-bottom: 1px solid var(--line); vertical-align: top; }
@@ -175,7 +177,7 @@ figcaption { font-weight: 600; margin-bottom: 2px; }
 figure p { margin: 0 0 6px; color: var(--muted); font-size: 13px; }
 .plot { width: 100%; min-height: 300px; }
 footer { margin-top: 40px; color: var(--muted); font-size: 12px; word-break: break-all; }
-noscript { display: block; padding: 12px; background: #fef3c7; }
+noscript { display: block; padding: 12px; background: ${REPORT.notice}; }
 @media (max-width: 600px) { .plots { grid-template-columns: 1fr; } }
 `;
 
@@ -301,9 +303,9 @@ ${body.join('\n')}
 const fmt = (v: number | null | undefined, digits = 1, unit = ''): string =>
   v === null || v === undefined || !Number.isFinite(v) ? 'n/a' : `${v.toFixed(digits)}${unit ? ` ${unit}` : ''}`;
 
-/** 10·log10(2·PSD): AES17 dBFS per hertz. */
+/** The project's spectrum scale (welch.ts): 10·log10(2·PSD), AES17 dBFS per hertz. */
 function psdDb(psd: ArrayLike<number>): Float64Array {
-  return Float64Array.from({ length: psd.length }, (_, k) => 10 * Math.log10(2 * psd[k]!));
+  return Float64Array.from({ length: psd.length }, (_, k) => psdToDbfsPerHz(psd[k]!));
 }
 
 function bandLabel(nominalHz: number): string {
@@ -326,7 +328,7 @@ function analysisPlots(a: RecordingAnalysis, labels: { off: string; on: string }
     title: 'Power spectral density',
     caption: `Welch's method, Hann window, ${a.resolution.coherenceResolutionHz.toFixed(2)} Hz resolution, unweighted.`,
     xLabel: 'frequency (Hz)',
-    yLabel: 'dBFS/Hz',
+    yLabel: SPECTRUM_UNIT,
     xScale: 'log',
     x: f,
     series: spectra,
@@ -339,7 +341,9 @@ function analysisPlots(a: RecordingAnalysis, labels: { off: string; on: string }
   }
   plots.push({
     title: 'Coherence bound per frequency',
-    caption: 'The most any feedforward controller can remove at each frequency, −10·log10(1 − γ²), from the reference/error coherence with control off.',
+    caption:
+      'What the best fixed (time-invariant) linear filter from the reference could remove at each frequency, −10·log10(1 − γ²), from the reference/error coherence with control off. ' +
+      'An adaptive filter that follows the noise as it changes can do better than this bound.',
     xLabel: 'frequency (Hz)',
     yLabel: 'dB',
     xScale: 'log',
@@ -360,7 +364,7 @@ function analysisPlots(a: RecordingAnalysis, labels: { off: string; on: string }
   if (a.bands.length && a.bands[0]!.onDb !== undefined) bandSeries.push({ label: labels.on, values: a.bands.map((b) => b.onDb!), color: REPORT_COLORS.on, bars: true, align: 1 });
   plots.push({
     title: `${a.fraction === 3 ? 'One-third-octave' : 'Octave'} band levels`,
-    caption: `IEC 61260-1 bands, ${weightingName(a.weighting)}, dBFS (AES17).`,
+    caption: `Bands with IEC 61260-1:2014 centre frequencies and edges, synthesised by summing FFT bins (not measured with IEC 61260-1 filters); ${weightingName(a.weighting)}, dBFS (AES17).`,
     xLabel: 'band (Hz)',
     yLabel: 'dBFS',
     xScale: 'category',
@@ -564,7 +568,7 @@ export function renderAnalysisReport(a: RecordingAnalysis, meta: AnalysisReportM
     rows.push(['error level, control on', `${fmt(overall.onDb, 1)} dBFS`]);
     rows.push(['attenuation', fmt(overall.attenuationDb, 1, 'dB')]);
   }
-  rows.push(['coherence bound', `${fmt(a.coherenceBoundDb, 1, 'dB')} (the most a feedforward controller can remove, before causality)`]);
+  rows.push(['coherence bound', `${fmt(a.coherenceBoundDb, 1, 'dB')} (what the best fixed linear filter from the reference could remove, before causality; an adaptive filter can beat it)`]);
   rows.push(...causalityRows(a));
   const sections: ReportSection[] = [
     { title: 'Summary', table: { rows } },

@@ -38,7 +38,7 @@ export interface RoomOptions extends RoomGeometry {
   receiver: Vec3;
   /** Sample rate in Hz. */
   sampleRate: number;
-  /** Speed of sound in m/s (default 343, air at about 20 °C). */
+  /** Speed of sound in m/s (default 343: dry air at about 20 °C, from the ideal-gas value 331.3·√(1 + θ/273.15) m/s at θ = 20 °C; from memory). */
   speedOfSound?: number;
   /** Highest reflection order kept (total number of wall hits); default: no limit other than the time. */
   maxOrder?: number;
@@ -117,7 +117,11 @@ function roomTotals(geometry: RoomGeometry, speedOfSound: number): { volume: num
   return { volume: x * y * z, surface, absorptionArea };
 }
 
-/** Sabine reverberation time T60 = 24·ln10·V / (c·Σ S_i·α_i) in seconds (Sabine, 1900; 0.161·V/A at 343 m/s). */
+/**
+ * Sabine reverberation time T60 = 24·ln10·V / (c·Σ S_i·α_i) in seconds (W. C. Sabine, "Reverberation",
+ * 1900, reprinted in *Collected Papers on Acoustics*, Harvard University Press, 1922; from memory). At
+ * 343 m/s this is 0.161·V/A (calculated).
+ */
 export function sabineT60(geometry: RoomGeometry, speedOfSound = 343): number {
   const { volume, absorptionArea } = roomTotals(geometry, speedOfSound);
   return (sabineConstant(speedOfSound) * volume) / absorptionArea;
@@ -246,8 +250,10 @@ export function roomImpulseResponse(options: RoomOptions): Float64Array {
 }
 
 /**
- * 2nd-order Butterworth high-pass, in place, by the bilinear transform with Q = 1/√2 (coefficients from
- * R. Bristow-Johnson, "Cookbook formulae for audio EQ biquad filter coefficients"), direct form I.
+ * 2nd-order Butterworth high-pass (maximally flat: S. Butterworth, "On the theory of filter amplifiers",
+ * Experimental Wireless and the Wireless Engineer 7, 1930), in place, by the bilinear transform with
+ * Q = 1/√2 (coefficients from R. Bristow-Johnson, "Cookbook formulae for audio EQ biquad filter
+ * coefficients"), direct form I.
  */
 function butterworthHighPassInPlace(x: Float64Array, cutoffHz: number, sampleRate: number): void {
   const w0 = (2 * Math.PI * cutoffHz) / sampleRate;

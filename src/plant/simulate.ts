@@ -476,7 +476,7 @@ export function convolved(x: Float64Array, h: Float64Array): Float64Array {
   return out;
 }
 
-/** The true path followed by the engine's speaker high-pass (2nd-order Butterworth, no DC blocker). */
+/** The true path followed by the engine's speaker high-pass (2nd-order Butterworth, src/dsp/highpass.ts; no DC blocker). */
 export function withHighPass(path: Float64Array, cornerHz: number, fs: number): Float64Array {
   const hp = new HighPass({ sampleRate: fs, cornerHz, dcBlockerHz: 0 });
   // the filter's impulse response until its tail holds less than 1e-7 of its energy (at most 2 s)

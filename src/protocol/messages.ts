@@ -103,7 +103,7 @@ export const HARMONIC_FIELDS = [
   /** Peak amplitude of the disturbance at the error mic (before control) and of the residual (after). */
   'Before',
   'After',
-  /** Counter-signal phase at the error mic relative to the disturbance, degrees (±180 = anti-phase). */
+  /** Anti-noise phase at the error mic relative to the disturbance, degrees (±180 = anti-phase). */
   'PhaseDeg',
   /** 20·log10(before / after), dB. */
   'AttDb',
@@ -170,29 +170,6 @@ export { EVENT_ACTIONS };
 export function eventValueNames(cause: EventCause): readonly string[] {
   return cause in HOST_EVENT_CAUSES ? HOST_EVENT_CAUSES[cause as keyof typeof HOST_EVENT_CAUSES] : EVENT_VALUE_NAMES[cause as EngineEventCause];
 }
-
-/** Plain-language text for each cause (the panel's event list). */
-export const EVENT_TEXT: Record<EventCause, string> = {
-  'non-finite': 'NaN or infinite samples (replaced by silence)',
-  'weights-unbounded': 'control-filter weights growing without bound',
-  'error-rise': 'error level rose above the control-off level',
-  'output-at-ceiling': 'output held at the cap',
-  'input-clipping': 'microphone input clipping',
-  'dead-microphone': 'microphone silent or stuck',
-  'limiter-engaged': 'limiter reducing gain',
-  'latency-jump': 'audio latency changed',
-  'model-mismatch': 'secondary-path model no longer fits',
-  resume: 'control resumed',
-  'input-missing': 'input disconnected or empty (read as silence)',
-  'input-restored': 'input connected again',
-  'channel-count': 'microphone delivered fewer channels than needed',
-  'device-change': 'audio devices changed',
-  underrun: 'audio output underran (overload)',
-  'probe-done': 'identification probe finished',
-  'controller-switch': 'controller switched with a crossfade',
-  'calibration-tone': 'calibration tone',
-  'level-check': 'level-cap check finished',
-};
 
 export const EVENT_RECORD_LENGTH = 3 + VALUES_PER_EVENT;
 

@@ -8,14 +8,27 @@
  * cards appear: calibration (dB SPL from the user's own readings, per output device and microphone,
  * kept in localStorage; an SPL cap, the stricter cap applies) and the level-cap check with its
  * saved report. Switching between broadband FxLMS and the tone follower crossfades to the engine's
- * standby controller instead of restarting.
+ * standby controller instead of restarting; other controller changes rebuild it and say why.
+ *
+ * The path from opening the page to hearing cancellation is one button: Start runs the simulated
+ * plant with control on. The control button beside it turns control off and on, and its state is
+ * shown separately (a chip: on, off, or what the guard did).
+ *
+ * Measured and estimated figures look different and say what they rest on: the attenuation readouts
+ * are measurements only against a measured control-off level (the simulator's control-off twin, or
+ * live the level recorded with control off before control started; display-state.ts), and are left
+ * empty with the reason otherwise, or while the model was loaded against the identification's
+ * advice and no control run has yet shown that it works.
  */
 import '../web/zod-jitless.ts';
 import { LitElement, css, html } from 'lit';
 import { shared, applyTheme, initialTheme, type ThemeName } from './theme.ts';
 import { FrameLoop } from './frame-loop.ts';
 import { DisplayState } from './display-state.ts';
-import { fmtDb, fmtHz } from './format.ts';
+import { fmtDb, fmtHz, fmtLevel } from './format.ts';
+import { SPECTRUM_UNIT } from '../web/index.ts';
+import { diagnose } from './identification-text.ts';
+import { broadbandName, rebuildReason } from './controller-text.ts';
 import { AncbMeter } from './meter-bar.ts';
 import { AncbPlot, type PlotConfig } from './plot.ts';
 import { AncbEvents } from './events-list.ts';
@@ -50,7 +63,7 @@ const SPECTRUM_INTERVAL_MS = 500;
 
 const SPECTRUM: PlotConfig = {
   xLabel: 'frequency (Hz)',
-  yLabel: 'PSD (dB re FS²/Hz)',
+  yLabel: `PSD (${SPECTRUM_UNIT})`,
   xLog: true,
   series: [
     { label: 'control off', colorVar: '--ancb-series-off', unit: 'dB' },
@@ -61,8 +74,8 @@ const ATTENUATION: PlotConfig = {
   xLabel: 'time (s)',
   yLabel: 'attenuation (dB)',
   series: [
-    { label: 'now', colorVar: '--ancb-series-now', unit: 'dB' },
-    { label: 'averaged', colorVar: '--ancb-series-avg', unit: 'dB', width: 3 },
+    { label: 'now (125 ms)', colorVar: '--ancb-series-now', unit: 'dB' },
+    { label: 'last second', colorVar: '--ancb-series-avg', unit: 'dB', width: 3 },
   ],
 };
 const IMPULSE: PlotConfig = {
@@ -136,6 +149,8 @@ export class AncbApp extends LitElement {
     levelLinks: { state: true },
     runsAs: { state: true },
     refusal: { state: true },
+    trust: { state: true },
+    oneMicOffer: { state: true },
   };
 
   static override styles = [
@@ -204,6 +219,26 @@ export class AncbApp extends LitElement {
         flex: 1;
         min-width: 14rem;
       }
+      .chip {
+        font-weight: 700;
+        border: 2px solid var(--ancb-line-strong);
+        border-radius: 999px;
+        padding: 0.25rem 0.8rem;
+        white-space: nowrap;
+      }
+      .chip[data-state='on'] {
+        border-color: var(--ancb-on);
+        background: var(--ancb-on-bg);
+      }
+      .chip[data-state='muted'],
+      .chip[data-state='frozen'] {
+        border-color: var(--ancb-warn);
+        color: var(--ancb-warn);
+      }
+      .basis {
+        grid-column: 1 / -1;
+        margin: 0;
+      }
       .banner {
         border: 2px solid var(--ancb-warn);
         border-radius: 10px;
@@ -240,7 +275,8 @@ export class AncbApp extends LitElement {
       }
       .levels {
         display: grid;
-        grid-template-columns: minmax(14rem, auto) 1fr;
+        /* the readouts' column keeps to the readouts: the basis text under them wraps instead of widening it */
+        grid-template-columns: minmax(14rem, 27rem) 1fr;
         gap: 0.6rem 1.6rem;
         align-items: center;
       }
@@ -341,12 +377,16 @@ export class AncbApp extends LitElement {
   declare runsAs: string;
   /** Why the last controller settings were refused (the engine's message), shown in the Controller card. */
   declare refusal: string;
+  /** The loaded model's standing (live): measured well, loaded against advice and unverified, or shown to work by control. */
+  declare trust: 'good' | 'unverified' | 'shown';
   readonly calibrations = browserCalibrationStore();
   private toneSeen = false;
 
   readonly display = new DisplayState();
   readonly session: Session;
   private cautionsAccepted = false;
+  /** One-mic layout with a controller that needs a reference mic: the banner offers the tone follower. */
+  declare oneMicOffer: boolean;
   private pendingEvents: PanelEvent[] = [];
   private lastPlotMs = 0;
   private lastSpectrumMs = 0;
@@ -359,7 +399,7 @@ export class AncbApp extends LitElement {
     this.running = false;
     this.controlOn = false;
     this.busy = '';
-    this.status = 'Stopped. Press Start to run the simulated plant.';
+    this.status = 'Stopped. Press Start: the simulated plant runs with control on.';
     this.warnings = [];
     this.stale = '';
     this.theme = initialTheme();
@@ -385,6 +425,8 @@ export class AncbApp extends LitElement {
     this.levelLinks = null;
     this.runsAs = '';
     this.refusal = '';
+    this.trust = 'good';
+    this.oneMicOffer = false;
     this.loadCalibrations();
     applyTheme(this.theme);
     this.session = new Session({
@@ -606,11 +648,12 @@ export class AncbApp extends LitElement {
 
   private tick(nowMs: number): void {
     this.session.poll();
+    const d = this.display;
     if (this.pendingEvents.length) {
-      this.$<AncbEvents>('ancb-events')?.add(this.pendingEvents);
+      // on panel time, like the plots: a restarted plant's clock starts again from zero
+      this.$<AncbEvents>('ancb-events')?.add(this.pendingEvents.map((e) => ({ ...e, timeS: e.timeS + d.timeOffsetS })));
       this.pendingEvents = [];
     }
-    const d = this.display;
     const live = this.source === 'live';
     const m = (ch: string): AncbMeter | null => this.$<AncbMeter>(`ancb-meter[channel=${ch}]`);
     if (d.frames > 0) {
@@ -619,12 +662,20 @@ export class AncbApp extends LitElement {
       m('out')?.show(d.outDb, d.outPeakDb, d.ceilingDb, nowMs);
       m('gr')?.show(d.grDb, NaN, NaN, nowMs);
       this.$<AncbOutputLimit>('ancb-output-limit')?.show(d.outputLimited);
-      this.setReadout('att-now', d.attNowDb);
-      this.setReadout('att-avg', d.attAvgDb);
+      const gate = this.attenuationGate();
+      this.setReadout('att-now', gate.ok ? d.attNowDb : NaN);
+      this.setReadout('att-avg', gate.ok ? d.attAvgDb : NaN);
+      this.setText('#att-basis', gate.text);
+      const basisEl = this.$<HTMLElement>('#att-basis');
+      if (basisEl && basisEl.dataset.ok !== String(gate.ok)) basisEl.dataset.ok = String(gate.ok);
+      if (this.trust === 'unverified' && d.controlShownToWork) {
+        this.trust = 'shown';
+        this.status = 'The model loaded against the identification\'s advice works here: control has lowered the error level clearly. Attenuation is now shown as measured.';
+      }
       const cal = live ? this.activeOutputCal : null;
       // the cap in dB SPL: peak SPL at the most sensitive calibrated frequency bounds every frequency in the range
       const capSpl = cal ? ` = at most ${fmtDb(d.ceilingDb + maxSensitivity(cal).db + SINE_CREST_DB)} dB SPL peak at the ear (${fmtHz(cal.minHz)} … ${fmtHz(cal.maxHz)})` : '';
-      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtDb(d.maxTruePeakDb)} dBTP · cap ${fmtDb(d.ceilingDb)} dBFS sample peak${capSpl}`);
+      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtLevel(d.maxTruePeakDb)} dBTP · cap ${fmtLevel(d.ceilingDb)} dBFS sample peak${capSpl}`);
       if (this.levelRunning) this.$<AncbLevelCheck>('ancb-level-check')?.showProgress(d.probeProgress);
       if (this.tone && this.calBusy === '') {
         // the tone stops by itself after TONE_MAX_S: the mode leaves 'tone' (4) without a stop from here
@@ -635,13 +686,29 @@ export class AncbApp extends LitElement {
         }
       }
       this.$<AncbTones>('ancb-tones')?.show(d, nowMs);
-      if (d.guardState !== this.guardState) this.guardState = d.guardState;
+      if (d.guardState !== this.guardState) {
+        const was = this.guardState;
+        this.guardState = d.guardState;
+        if (this.running) {
+          const unverified = this.source === 'live' && this.trust === 'unverified' && this.controlOn ? ' Control runs against an UNVERIFIED model.' : '';
+          this.status =
+            (d.guardState === 2
+              ? 'Guard: the anti-noise output is muted (the cause is in the events). Press Resume to let control start again.'
+              : d.guardState === 1
+                ? 'Guard: adaptation is frozen; the anti-noise keeps its last weights (the cause is in the events). Press Resume to adapt again.'
+                : was > 0 && this.controlOn
+                  ? 'Guard released: control is running again.'
+                  : this.status) + (d.guardState > 0 || (was > 0 && this.controlOn) ? unverified : '');
+        }
+      }
       const setup = this.$<AncbLiveSetup>('ancb-live-setup');
       if (setup && this.busy === 'identify') setup.showProgress(d.probeProgress);
     }
     if (nowMs - this.lastPlotMs >= PLOT_INTERVAL_MS && d.histT.length > 1) {
       this.lastPlotMs = nowMs;
-      this.$<AncbPlot>('#plot-att')?.setData([d.histT, d.histNow, d.histAvg]);
+      // the history shows what the readouts may show: nothing while no figure is a measurement of control
+      const shown = this.source === 'sim' || (this.trust !== 'unverified' && d.attBasis !== 'none');
+      this.$<AncbPlot>('#plot-att')?.setData(shown ? [d.histT, d.histNow, d.histAvg] : [d.histT, d.histT.map(() => null), d.histT.map(() => null)]);
       if (d.toneT.length > 1) {
         this.$<AncbPlot>('#plot-tone')?.setData([d.toneT, d.toneF]);
         const s = `${fmtHz(d.toneHz)}${d.toneLocked === 1 ? ', locked' : ', searching'}`;
@@ -659,11 +726,48 @@ export class AncbApp extends LitElement {
           const f = Array.from(s.frequencyHz.subarray(lo));
           const nul = (a: Float64Array): (number | null)[] => Array.from(a.subarray(lo), (v) => (Number.isFinite(v) ? v : null));
           this.$<AncbPlot>('#plot-spectrum')?.setData([f, nul(s.offDb), nul(s.onDb)]);
+          const gate = this.attenuationGate();
+          const off = s.offSeconds > 0 ? { frequencyHz: s.frequencyHz, densityDb: s.offDb, resolutionHz: s.resolutionHz } : null;
+          const on = s.onSeconds > 0 ? { frequencyHz: s.frequencyHz, densityDb: s.onDb, resolutionHz: s.resolutionHz } : null;
+          const basis =
+            this.source === 'sim'
+              ? 'the error mic in the simulator\'s control-off twin (last 2 s)'
+              : `the error mic's spectrum over the last ${Math.min(2, s.offSeconds).toFixed(1)} s with control off`;
+          this.$<AncbTones>('ancb-tones')?.setSpectra(off, on, basis, gate.ok || !this.controlOn ? (this.controlOn ? '' : 'control is off') : gate.why);
         })
         .finally(() => {
           this.spectrumPending = false;
         });
     }
+  }
+
+  /**
+   * Whether the attenuation readouts may show a figure, what it rests on, and why not when they may not.
+   * A figure is a measurement against a measured control-off level; none is shown live while the model
+   * is unverified (loaded against the identification's advice, and no control run has shown it works).
+   */
+  private attenuationGate(): { ok: boolean; text: string; why: string } {
+    const d = this.display;
+    if (!this.running) return { ok: false, text: 'Attenuation: press Start.', why: 'not running' };
+    if (!this.controlOn) return { ok: false, text: 'Attenuation: control is off.', why: 'control is off' };
+    if (this.source === 'sim') {
+      return {
+        ok: true,
+        text: 'Measured: the error mic against the simulator\'s control-off twin (the same plant, sources and noise with no control, at the same instants).',
+        why: '',
+      };
+    }
+    if (d.attBasis === 'none') return { ok: false, text: `Attenuation not shown: ${d.attMissing}.`, why: d.attMissing };
+    if (this.trust === 'unverified') {
+      const why =
+        'the secondary-path model is unverified (identification failed and it was loaded anyway); a level change is not shown as attenuation until control has lowered the error level clearly';
+      return { ok: false, text: `Attenuation not shown: ${why}.`, why };
+    }
+    return {
+      ok: true,
+      text: `Measured: the error mic against its mean level over ${d.referenceSeconds.toFixed(1)} s with control off, recorded before control started.`,
+      why: '',
+    };
   }
 
   private setText(sel: string, text: string): void {
@@ -678,6 +782,8 @@ export class AncbApp extends LitElement {
     if (el.textContent !== text) {
       el.textContent = text;
       el.dataset.value = Number.isFinite(v) ? v.toFixed(1) : '';
+      // only a figure the attenuation gate let through is shown, and it is a measurement
+      el.dataset.kind = Number.isFinite(v) ? 'measured' : 'none';
     }
   }
 
@@ -717,21 +823,29 @@ export class AncbApp extends LitElement {
         this.display.reset('sim');
         await this.session.startSim(e.scenario, this.settings, this.monitorGainDb);
         this.session.setMonitor(this.monitorGainDb, this.monitorSource);
-        this.status = `Simulated plant “${e.scenario.name ?? e.id}” running at ${this.session.sampleRate / 1000} kHz. Control is off: listen, then press Control.`;
+        // one press from opening the page to hearing cancellation: the simulated plant starts with control on
+        this.session.setControl(true);
+        this.running = true;
+        this.controlOn = true;
+        this.status = `Simulated plant “${e.scenario.name ?? e.id}” running at ${this.session.sampleRate / 1000} kHz with control on: listen as the noise fades. Turn control off to hear it alone.`;
+        return;
       } else {
         this.display.reset('live');
         const c = this.settings.controller;
         if (this.choice.layout === 'err-only' && (c.algorithm !== 'tonal' || c.frequencySource !== 'error')) {
-          this.warnings = [
-            ...this.warnings,
-            'one-mic layout: choose the tone follower with “Tone from: error mic” under Controller (broadband FxLMS needs a reference mic)',
-          ];
+          this.oneMicOffer = true;
+          throw new Error(
+            c.algorithm === 'tonal'
+              ? 'one-mic layout: the tone follower must take its tone from the error mic (there is no reference mic). Use the button above'
+              : `one-mic layout: broadband ${c.algorithm === 'fxlms' ? 'FxLMS' : 'FxNLMS'} needs a reference mic. Use the tone follower with the tone from the error mic (button above)`,
+          );
         }
+        this.oneMicOffer = false;
         this.loadCalibrations();
         await this.session.startLive(this.choice, this.engineSettings());
         // access was granted by opening the microphones: list the devices for the pickers
         if (!this.devices) void this.refreshDevices();
-        this.status = `Microphones open at ${this.session.sampleRate / 1000} kHz. ${this.identified && this.identified.sampleRate === this.session.sampleRate ? 'Model loaded.' : 'Next: identify the secondary path.'}`;
+        this.status = `Microphones open at ${this.session.sampleRate / 1000} kHz, control off. ${this.identified && this.identified.sampleRate === this.session.sampleRate ? 'Model loaded: turn control on when ready.' : 'Next: identify the secondary path.'}`;
       }
       this.running = true;
       this.controlOn = false;
@@ -739,6 +853,7 @@ export class AncbApp extends LitElement {
       this.status = `Could not start: ${(e as Error).message}`;
       await this.session.stop();
       this.running = false;
+      this.controlOn = false;
     } finally {
       this.busy = '';
     }
@@ -756,6 +871,15 @@ export class AncbApp extends LitElement {
     this.status = 'Stopped.';
   }
 
+  /** The control state as the chip beside the control button shows it. */
+  private controlChip(): { state: 'off' | 'on' | 'muted' | 'frozen'; text: string } {
+    if (!this.running || !this.controlOn) return { state: 'off', text: 'control off' };
+    const unverified = this.source === 'live' && this.trust === 'unverified' ? ', model unverified' : '';
+    if (this.guardState === 2) return { state: 'muted', text: `muted by the guard${unverified}` };
+    if (this.guardState === 1) return { state: 'frozen', text: `on, adaptation frozen by the guard${unverified}` };
+    return { state: 'on', text: `control on${unverified}` };
+  }
+
   private get canControl(): boolean {
     if (!this.running) return false;
     if (this.tone || this.levelRunning) return false;
@@ -767,7 +891,23 @@ export class AncbApp extends LitElement {
     if (!this.canControl) return;
     this.controlOn = !this.controlOn;
     this.session.setControl(this.controlOn);
-    this.status = this.controlOn ? 'Control on: the output fades in; watch the attenuation.' : 'Control off: the output fades out.';
+    const unverified = this.source === 'live' && this.trust === 'unverified';
+    this.status = this.controlOn
+      ? unverified
+        ? 'Control on against an UNVERIFIED model: the anti-noise fades in; no attenuation is shown until the error level drops clearly.'
+        : 'Control on: the anti-noise fades in; watch the attenuation.'
+      : 'Control off: the anti-noise fades out.';
+  }
+
+  /** One-mic layout: the tone follower, tracking the tone on the error mic. */
+  private useOneMicTonal(): void {
+    const prev = this.settings.controller;
+    const tonal = prev.algorithm === 'tonal' ? prev : this.settings.standby?.algorithm === 'tonal' ? this.settings.standby : { algorithm: 'tonal' as const, harmonics: 1, stepSize: 0.005, frequencySource: 'error' as const };
+    const { hz: _hz, ...rest } = tonal as typeof tonal & { hz?: number };
+    const controller = { ...rest, frequencySource: 'error' as const };
+    this.settings = { ...this.settings, controller, standby: prev.algorithm === 'tonal' ? this.settings.standby : prev };
+    this.oneMicOffer = false;
+    this.status = 'Tone follower chosen, tracking the tone on the error mic. Press Start.';
   }
 
   private async setSource(s: 'sim' | 'live'): Promise<void> {
@@ -775,7 +915,7 @@ export class AncbApp extends LitElement {
     if (this.running) await this.stop();
     this.source = s;
     this.display.reset(s);
-    this.status = s === 'sim' ? 'Stopped. Press Start to run the simulated plant.' : 'Live microphones: allow access, choose devices, then Start.';
+    this.status = s === 'sim' ? 'Stopped. Press Start: the simulated plant runs with control on.' : 'Live microphones: allow access, choose devices, then Start.';
     if (s === 'live' && this.settings.ceilingDbfs > LIVE_START_CAP_DBFS) {
       // start low: a real loudspeaker follows
       this.settings = { ...this.settings, ceilingDbfs: LIVE_START_CAP_DBFS };
@@ -801,12 +941,21 @@ export class AncbApp extends LitElement {
       return;
     }
     if (how === 'switched') {
-      const to = next.controller.algorithm === 'tonal' ? 'the tone follower' : `broadband ${next.controller.algorithm === 'fxlms' ? 'FxLMS' : 'FxNLMS'}`;
+      const to = next.controller.algorithm === 'tonal' ? 'the tone follower' : `broadband ${broadbandName(next.controller)}`;
       const from = prev.algorithm === 'tonal' ? 'the tone follower' : 'broadband control';
       this.status = `Switched from ${from} to ${to} with a ${SWITCH_CROSSFADE_MS} ms crossfade: no restart; it resumes with the weights it had.`;
     } else if (how === 'rebuilt') {
-      this.controlOn = false;
-      this.status = this.source === 'sim' ? 'Controller rebuilt: the plant restarted with control off.' : 'Controller rebuilt with the current model: control is off, weights start from zero.';
+      const why = rebuildReason(prev, next.controller, before.standby);
+      if (this.source === 'sim') {
+        // the plant restarted (control off): the path to cancellation stays one press, so control goes back on
+        const wasOn = this.controlOn;
+        this.controlOn = wasOn;
+        if (wasOn) this.session.setControl(true);
+        this.status = `New controller (${why}): its weights start from zero and the simulated plant restarted${wasOn ? ' with control on' : ''}.`;
+      } else {
+        this.controlOn = false;
+        this.status = `New controller (${why}) with the current model: its weights start from zero and control is off.`;
+      }
     }
   }
 
@@ -894,8 +1043,13 @@ export class AncbApp extends LitElement {
     this.identified = r;
     this.controlOn = false;
     this.stale = '';
-    this.verdict = this.geometry?.primaryDelayMs != null ? causalityVerdict(this.geometry.primaryDelayMs, r.delayMs) : null;
-    this.status = `Model loaded: round trip ${r.delayMs.toFixed(2)} ms. ${r.warnings.length ? 'See the notes under the result. ' : ''}Press Control to start.`;
+    this.trust = r.usable ? 'good' : 'unverified';
+    this.display.resetVerification();
+    const d = diagnose(r);
+    this.verdict = d.responseFound && this.geometry?.primaryDelayMs != null ? causalityVerdict(this.geometry.primaryDelayMs, r.delayMs) : null;
+    this.status = r.usable
+      ? `Model loaded: round trip ${fmtDb(r.delayMs, 2)} ms. ${d.ranked.length ? 'See the notes under the result. ' : ''}Turn control on to start.`
+      : `Model loaded UNVERIFIED: ${d.headline} Control may do nothing or add noise; no attenuation is shown until a control run lowers the error level clearly.`;
   }
 
   private async onGeometry(): Promise<void> {
@@ -946,6 +1100,7 @@ export class AncbApp extends LitElement {
       .busy=${this.busy === 'identify' || this.busy === 'geometry' || this.busy === 'permission' ? this.busy : ''}
       .result=${this.measured}
       .loaded=${this.measured !== null && this.measured === this.identified}
+      .trust=${this.trust}
       .geometry=${this.geometry}
       .verdict=${this.verdict}
       .reportedLatencyMs=${reported}
@@ -1009,6 +1164,7 @@ export class AncbApp extends LitElement {
     const outCal = live ? this.activeOutputCal : null;
     const errSpl = live ? this.micCal : null;
     const controlHint = !this.running ? 'Start first' : live && !canControl ? 'identify the secondary path first' : '';
+    const chip = this.controlChip();
     return html`
       <header>
         <h1>ancbench<span>active noise control workbench</span></h1>
@@ -1025,9 +1181,14 @@ export class AncbApp extends LitElement {
         ${this.running
           ? html`<button id="start" @click=${() => void this.stop()} ?disabled=${this.busy === 'stop'}>Stop</button>`
           : html`<button id="start" class="primary" @click=${() => void this.start()} ?disabled=${this.busy === 'start'}>${live ? 'Start (open mics)' : 'Start'}</button>`}
-        <button id="control" aria-pressed=${String(this.controlOn)} ?disabled=${!canControl} @click=${this.toggleControl} title=${controlHint}>Control: ${this.controlOn ? 'on' : 'off'}</button>
+        <button id="control" ?disabled=${!canControl} @click=${this.toggleControl} title=${controlHint}>${this.controlOn ? 'Turn control off' : 'Turn control on'}</button>
+        <span class="chip" id="control-state" data-state=${chip.state} aria-label=${`control state: ${chip.text}`}>${chip.text}</span>
         <span class="status" role="status" aria-live="polite">${this.status}${controlHint && this.running ? html` <span class="muted">(control: ${controlHint})</span>` : ''}</span>
       </div>
+      ${live && this.oneMicOffer && this.choice.layout === 'err-only'
+        ? html`<div class="card banner" role="alert"><span class="warn"><b>One-mic layout:</b> broadband control needs a reference mic. The tone follower can track the tone on the error mic alone.</span>
+            <button id="use-tonal" class="primary" @click=${() => this.useOneMicTonal()}>Use the tone follower (tone from the error mic)</button></div>`
+        : ''}
       ${this.warnings.length ? html`<div class="card banner" role="alert"><ul class="warnings">${this.warnings.map((w) => html`<li class="warn">${w}</li>`)}</ul><button id="dismiss" @click=${() => (this.warnings = [])}>Dismiss</button></div>` : ''}
       ${this.guardState > 0
         ? html`<div class="card banner" role="alert"><span class="warn"><b>Guard:</b> ${this.guardState === 2 ? 'output muted' : 'adaptation frozen'} (see the events for the cause).</span>
@@ -1041,20 +1202,21 @@ export class AncbApp extends LitElement {
       <div class="layout">
         <aside>
           ${this.renderSource()}
-          <ancb-controls .settings=${this.settings} .capNote=${live ? this.capNote : ''} .runsAs=${this.running ? this.runsAs : ''} .refusal=${this.refusal}
+          <ancb-controls .settings=${this.settings} .oneMic=${live && this.choice.layout === 'err-only'} .capNote=${live ? this.capNote : ''} .runsAs=${this.running ? this.runsAs : ''} .refusal=${this.refusal}
             @ancb-settings=${(e: CustomEvent<ControlSettings>) => void this.onSettings(e)} @ancb-reset-weights=${() => this.session.resetWeights()}></ancb-controls>
         </aside>
         <section class="display" aria-label="Measurements">
           <div class="card levels">
             <div class="readouts">
-              <div class="readout"><span class="name" id="att-now-l">Attenuation now</span><output id="att-now" aria-labelledby="att-now-l">—</output><span class="unit">dB (125 ms)</span></div>
-              <div class="readout"><span class="name" id="att-avg-l">Averaged</span><output id="att-avg" aria-labelledby="att-avg-l">—</output><span class="unit">dB (1 s)</span></div>
+              <div class="readout meas"><span class="name" id="att-now-l">Attenuation now <span class="tag">measured</span></span><output id="att-now" aria-labelledby="att-now-l" data-kind="none">—</output><span class="unit">dB, 125 ms time constant</span></div>
+              <div class="readout meas"><span class="name" id="att-avg-l">Last second <span class="tag">measured</span></span><output id="att-avg" aria-labelledby="att-avg-l" data-kind="none">—</output><span class="unit">dB, mean over the last 1 s of control</span></div>
+              <p class="basis small muted" id="att-basis" data-ok="false">Attenuation: press Start.</p>
             </div>
             <div class="bars">
               <ancb-meter channel="ref" label="Reference mic"></ancb-meter>
               <ancb-meter channel="err" label="Error mic" .splOffsetDb=${errSpl ? errSpl.calibration.sensitivityDbSpl : null}
                 .splNote=${errSpl ? `mic calibration, sound within ${fmtHz(errSpl.calibration.validFromHz)} … ${fmtHz(errSpl.calibration.validToHz)}` : ''}></ancb-meter>
-              <ancb-meter channel="out" label="Output" note="RMS bar, peak marker (1 s hold), red: cap" .splOffsetDb=${outCal ? maxSensitivity(outCal).db : null} splPrefix="≤ "
+              <ancb-meter channel="out" label="Output (anti-noise)" note="RMS bar, peak marker (1 s hold), red: cap" .splOffsetDb=${outCal ? maxSensitivity(outCal).db : null} splPrefix="≤ "
                 .splNote=${outCal ? `at the ear, bound from the most sensitive reading (${fmtHz(maxSensitivity(outCal).hz)}); holds for ${fmtHz(outCal.minHz)} … ${fmtHz(outCal.maxHz)}` : ''}></ancb-meter>
               <ancb-output-limit .method=${this.settings.controller.outputConstraint ?? 'rescale'} .capDbfs=${this.settings.ceilingDbfs}
                 @ancb-output-constraint=${(e: CustomEvent<'rescale' | 'effort' | 'none'>) => void this.onSettings(new CustomEvent('ancb-settings', { detail: { ...this.settings, controller: { ...this.settings.controller, outputConstraint: e.detail } } }))}></ancb-output-limit>

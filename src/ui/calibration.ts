@@ -216,7 +216,7 @@ export class AncbCalibration extends LitElement {
     const cap = this.effective?.ceilingDbfs ?? this.capDbfs;
     return html`<table id="cal-table" aria-label="output calibration readings">
       <thead>
-        <tr><th>Frequency</th><th>Tone at output</th><th>Measured</th><th title="RMS SPL of a full-scale sine (0 dBFS)">Sensitivity</th><th title="Peak SPL the applied cap allows at this frequency">Cap here</th><th><span class="muted">remove</span></th></tr>
+        <tr><th>Frequency</th><th>Tone at output</th><th>Measured</th><th title="The RMS SPL at the ear that a full-scale sine (0 dBFS) at the output would give, from this reading">dB SPL at 0 dBFS</th><th title="Peak SPL the applied cap allows at this frequency">Cap here</th><th><span class="muted">remove</span></th></tr>
         <tr class="small muted"><th>Hz</th><th>dBFS</th><th>dB SPL</th><th>dB SPL at 0 dBFS</th><th>dB SPL peak</th><th></th></tr>
       </thead>
       <tbody>
@@ -265,7 +265,7 @@ export class AncbCalibration extends LitElement {
     const playing = t !== null;
     const maxDb = this.maxToneDbfs;
     return html`<h3>Output: loudspeaker at the ear position</h3>
-      <p class="small">Output device: <b>${this.outputLabel}</b>. Play a tone, read the SPL at the ear position on a sound level meter (flat or C weighting, slow), and enter it. Take readings across the band you control.</p>
+      <p class="small">Output device: <b>${this.outputLabel}</b>. Play a tone, read the SPL at the ear position on a sound level meter (frequency weighting Z or C, time weighting S, as IEC 61672-1 names them), and enter it. Take readings across the band you control.</p>
       <p class="small warn" id="lf-warning">Loudspeaker sensitivity varies strongly at low frequencies (a small speaker falls off steeply below its resonance, and room modes add peaks and dips): measure at several frequencies. Between readings the panel interpolates; outside them SPL is unknown.</p>
       ${!playing
         ? html`<div class="grid">

@@ -28,6 +28,7 @@ import type { FxlmsConfig } from '../web/index.ts';
 import type { FxlmsImplementationSettings } from '../web/index.ts';
 import { emit } from './emit.ts';
 import { FXLMS_SETTINGS, LIMITER_SETTINGS, TONAL_SETTINGS } from '../web/index.ts';
+import { switchNote } from './controller-text.ts';
 
 /** A broadband (FxLMS / FxNLMS) configuration with its implementation fields. */
 type BroadbandConfig = BroadbandControllerConfig;
@@ -78,8 +79,11 @@ export class AncbControls extends LitElement {
     capNote: {},
     runsAs: {},
     refusal: {},
+    oneMic: { type: Boolean },
     problem: { state: true },
   };
+  /** One-mic layout (live, error mic only): broadband control and the reference-mic tone source are not offered. */
+  declare oneMic: boolean;
 
   static override styles = [
     shared,
@@ -143,6 +147,7 @@ export class AncbControls extends LitElement {
     this.capNote = '';
     this.runsAs = '';
     this.refusal = '';
+    this.oneMic = false;
   }
 
   override willUpdate(changed: Map<string, unknown>): void {
@@ -258,7 +263,7 @@ export class AncbControls extends LitElement {
       <span class="pair"><input id="harmonics" type="number" min=${HARMONICS_RANGE[0]} max=${HARMONICS_RANGE[1]} step="1" .value=${String(c.harmonics)} @change=${this.setHarmonics} /><span class="unit">f₀ … ${c.harmonics}·f₀</span></span>
       <label for="fsrc">Tone from</label>
       <select id="fsrc" @change=${(e: Event) => this.setSource((e.target as HTMLSelectElement).value as 'reference' | 'error' | 'fixed')}>
-        <option value="reference" ?selected=${src === 'reference'}>reference mic (tracked)</option>
+        <option value="reference" ?selected=${src === 'reference'} ?disabled=${this.oneMic}>reference mic (tracked)${this.oneMic ? ' — needs a reference mic' : ''}</option>
         <option value="error" ?selected=${src === 'error'}>error mic (tracked, one-mic mode)</option>
         <option value="fixed" ?selected=${src === 'fixed'}>fixed frequency</option>
       </select>
@@ -291,11 +296,12 @@ export class AncbControls extends LitElement {
       <div class="grid">
         <label for="alg">Algorithm</label>
         <select id="alg" @change=${this.setAlgorithm} .value=${c.algorithm}>
-          <option value="fxnlms" ?selected=${c.algorithm === 'fxnlms'}>FxNLMS (broadband, normalised)</option>
-          <option value="fxlms" ?selected=${c.algorithm === 'fxlms'}>FxLMS (broadband)</option>
+          <option value="fxnlms" ?selected=${c.algorithm === 'fxnlms'} ?disabled=${this.oneMic}>FxNLMS (broadband, normalised)${this.oneMic ? ' — needs a reference mic' : ''}</option>
+          <option value="fxlms" ?selected=${c.algorithm === 'fxlms'} ?disabled=${this.oneMic}>FxLMS (broadband)${this.oneMic ? ' — needs a reference mic' : ''}</option>
           <option value="tonal" ?selected=${c.algorithm === 'tonal'}>Tone follower (narrowband)</option>
           <option value="imc" ?selected=${c.algorithm === 'imc'}>Broadband, error mic only (IMC)</option>
         </select>
+        <span></span><span class="unit" id="switch-note">${switchNote(c, this.settings.standby)}</span>
 
         ${c.algorithm === 'tonal' ? this.renderTonal(c) : html`<label for="taps">Filter length</label>
         <span class="pair"><input id="taps" type="number" min=${TAPS_RANGE[0]} max=${TAPS_RANGE[1]} step="1" .value=${String(c.taps)} @change=${this.setTaps} /><span class="unit">taps</span></span>

@@ -1,19 +1,17 @@
 /**
- * <ancb-events>: the event log (guard, limiter, input and latency events), newest first. Events are
- * rare, so the list re-renders on each one; the display loop batches them per animation frame.
+ * <ancb-events>: the event log (guard, limiter, input and latency events), newest first by time
+ * (orderEvents), each with its values in words and units (eventDetails). Times are seconds of panel
+ * time: the panel moves the times of a restarted plant on past the previous run's, so the order
+ * holds across restarts. Events are rare, so the list re-renders on each batch; the display loop
+ * batches them per animation frame.
  */
 import { LitElement, css, html } from 'lit';
 import { shared } from './theme.ts';
-import { EVENT_TEXT, type PanelEvent } from '../web/index.ts';
+import type { PanelEvent } from '../web/index.ts';
+import { ACTION_TEXT, EVENT_TEXT, eventDetails, orderEvents } from './event-text.ts';
+import { fmtSeconds } from './format.ts';
 
 export const MAX_EVENTS = 200;
-
-function valuesText(e: PanelEvent): string {
-  return Object.entries(e.values)
-    .filter(([, v]) => Number.isFinite(v))
-    .map(([k, v]) => `${k} ${Math.abs(v) >= 100 || Number.isInteger(v) ? v.toFixed(0) : v.toFixed(1)}`)
-    .join(', ');
-}
 
 export class AncbEvents extends LitElement {
   static override properties = { events: { attribute: false } };
@@ -60,7 +58,8 @@ export class AncbEvents extends LitElement {
 
   add(list: PanelEvent[]): void {
     if (list.length === 0) return;
-    this.events = [...list.reverse(), ...this.events].slice(0, MAX_EVENTS);
+    // kept in arrival order; shown in time order
+    this.events = [...this.events, ...list].slice(-MAX_EVENTS);
   }
 
   clear(): void {
@@ -73,11 +72,11 @@ export class AncbEvents extends LitElement {
       ${this.events.length === 0
         ? html`<p class="empty">No events yet. Guard, limiter, input and latency events appear here.</p>`
         : html`<ul class="list" tabindex="0" aria-label="event log, newest first" aria-live="polite">
-            ${this.events.map(
+            ${orderEvents(this.events).map(
               (e) => html`<li data-cause=${e.cause}>
-                <span class="t">${e.timeS.toFixed(2)} s</span>
-                <span>${EVENT_TEXT[e.cause]}${valuesText(e) ? html` <span class="muted">(${valuesText(e)})</span>` : ''}</span>
-                <span class="action">${e.action === 'none' ? '' : e.action.replace(/-/g, ' ')}</span>
+                <span class="t">${fmtSeconds(e.timeS)}</span>
+                <span>${EVENT_TEXT[e.cause]}${eventDetails(e) ? html` <span class="muted">(${eventDetails(e)})</span>` : ''}</span>
+                <span class="action">${ACTION_TEXT[e.action]}</span>
               </li>`,
             )}
           </ul>`}

@@ -3,11 +3,18 @@
  * secondary-path identification (round-trip latency and model), then the microphone geometry and
  * its causality verdict.
  *
+ * The identification's notes are resolved into one ranked diagnosis (identification-text.ts). A
+ * result too poor to control with is not loaded; "Load it anyway" first says what will happen (a
+ * modal dialog), and a model loaded that way is shown as unverified (`trust`) until a control run
+ * has shown that it works.
+ *
  * Fires: `ancb-permission` (ask for microphone access), `ancb-choice` (detail: DeviceChoice),
- * `ancb-identify` (detail: { probeDbfs, firTaps }), `ancb-geometry`.
+ * `ancb-identify` (detail: { probeDbfs, firTaps }), `ancb-geometry`, `ancb-accept-model` (after the
+ * user confirmed loading a poor model).
  */
 import { LitElement, css, html } from 'lit';
-import { shared, formLayout } from './theme.ts';
+import { shared, formLayout, dialogStyles } from './theme.ts';
+import { diagnose, loadAnywayText } from './identification-text.ts';
 import { fmtDb, fmtMs } from './format.ts';
 import type { DeviceChoice, DeviceLists, MicLayout } from '../web/devices.ts';
 import type { CausalityVerdict, GeometryResult, IdentificationResult } from '../web/index.ts';
@@ -23,6 +30,7 @@ export class AncbLiveSetup extends LitElement {
     busy: {},
     result: { attribute: false },
     loaded: { type: Boolean },
+    trust: {},
     geometry: { attribute: false },
     verdict: { attribute: false },
     reportedLatencyMs: { type: Number },
@@ -33,6 +41,7 @@ export class AncbLiveSetup extends LitElement {
   static override styles = [
     shared,
     formLayout,
+    dialogStyles,
     css`
       h3 {
         font-size: 0.95rem;
@@ -64,7 +73,8 @@ export class AncbLiveSetup extends LitElement {
         margin: 0;
         font-family: var(--ancb-mono);
       }
-      ul.warn {
+      ul.warn,
+      ol.warn {
         padding-left: 1.1rem;
         margin: 0.4rem 0 0;
       }
@@ -82,6 +92,8 @@ export class AncbLiveSetup extends LitElement {
   declare result: IdentificationResult | null;
   /** Whether `result` is the model the engine uses. */
   declare loaded: boolean;
+  /** The loaded model's standing: measured well, loaded against advice and unverified, or shown to work by a control run. */
+  declare trust: 'good' | 'unverified' | 'shown';
   declare geometry: GeometryResult | null;
   declare verdict: CausalityVerdict | null;
   declare reportedLatencyMs: number;
@@ -96,6 +108,7 @@ export class AncbLiveSetup extends LitElement {
     this.busy = '';
     this.result = null;
     this.loaded = false;
+    this.trust = 'good';
     this.geometry = null;
     this.verdict = null;
     this.reportedLatencyMs = NaN;
@@ -176,20 +189,38 @@ export class AncbLiveSetup extends LitElement {
       <p><button id="identify" class="primary" ?disabled=${!this.open || busy} @click=${() => emit(this, 'ancb-identify', { probeDbfs: this.probeDbfs, firTaps: this.firTaps })}>${busy ? 'Identifying…' : r ? 'Identify again' : 'Identify secondary path'}</button></p>
       ${busy ? html`<progress max="1" value="0" aria-label="probe progress"></progress>` : ''}
       ${!this.open ? html`<p class="muted small">Open the microphones first (Start).</p>` : ''}
-      ${r
-        ? html`<dl>
-              <dt>Round trip</dt><dd data-field="delay">${fmtMs(r.delayMs, 2)} (${r.delaySamples} samples)</dd>
-              <dt>Browser reports</dt><dd>${fmtMs(this.reportedLatencyMs)} (output + base latency; the measurement also includes input and air)</dd>
-              <dt>Measurement SNR</dt><dd>${r.snrDb === null ? 'not measured' : `${fmtDb(r.snrDb)} dB`}</dd>
-              <dt>Loudspeaker → ref mic</dt><dd>${fmtDb(r.feedbackRatioDb)} dB re error mic</dd>
-              <dt>Model</dt><dd>${r.model.length} taps</dd>
-            </dl>
-            ${r.warnings.length ? html`<ul class="warn">${r.warnings.map((w) => html`<li class="warn">${w}</li>`)}</ul>` : ''}
-            ${this.loaded
-              ? html`<p class="small muted">This model is loaded.</p>`
-              : html`<p class="warn">Not loaded: the measurement is too poor to control with safely.</p>
-                  <button id="accept-model" @click=${() => emit(this, 'ancb-accept-model')}>Load it anyway</button>`}`
-        : ''}`;
+      ${r ? this.renderResult(r) : ''}`;
+  }
+
+  private renderResult(r: IdentificationResult): unknown {
+    const d = diagnose(r);
+    const trust = this.trust === 'unverified' ? html`<p class="warn" id="model-trust" data-trust="unverified"><b>Loaded, unverified:</b> the measurement was too poor; no attenuation is shown until a control run lowers the error level clearly.</p>`
+      : this.trust === 'shown' ? html`<p class="small" id="model-trust" data-trust="shown">Loaded against the identification's advice; a control run has since lowered the error level clearly, so it works here.</p>`
+      : html`<p class="small muted" id="model-trust" data-trust="good">This model is loaded.</p>`;
+    return html`<dl>
+        <dt>Round trip</dt><dd data-field="delay">${d.responseFound ? html`${fmtMs(r.delayMs, 2)} (${r.delaySamples} samples)` : 'not found (no response)'}</dd>
+        <dt>Browser reports</dt><dd>${fmtMs(this.reportedLatencyMs)} (output + base latency; the measurement also includes input and air)</dd>
+        <dt>Measurement SNR</dt><dd>${r.snrDb === null ? 'not measured' : Number.isFinite(r.snrDb) ? `${fmtDb(r.snrDb)} dB` : 'none: no response'}</dd>
+        <dt>Loudspeaker → ref mic</dt><dd>${d.responseFound ? `${fmtDb(r.feedbackRatioDb)} dB re error mic` : 'not meaningful without a response'}</dd>
+        <dt>Model</dt><dd>${r.model.length} taps</dd>
+      </dl>
+      <p class=${d.kind === 'ok' ? '' : 'warn'} id="diagnosis" data-kind=${d.kind}>${d.headline}</p>
+      ${d.ranked.length ? html`<ol class="warn small" id="diagnosis-more">${d.ranked.map((w) => html`<li>${w}</li>`)}</ol>` : ''}
+      ${this.loaded
+        ? trust
+        : html`<p class="warn">Not loaded: the measurement is too poor to control with safely.</p>
+            <button id="accept-model" @click=${() => this.renderRoot.querySelector<HTMLDialogElement>('#load-anyway')?.showModal()}>Load it anyway…</button>
+            <dialog id="load-anyway" aria-labelledby="la-h">
+              <h2 id="la-h">Load a model that failed identification?</h2>
+              <p>${loadAnywayText(d)}</p>
+              <div class="buttons">
+                <button id="cancel-load" @click=${() => this.renderRoot.querySelector<HTMLDialogElement>('#load-anyway')?.close()}>Cancel</button>
+                <button id="confirm-load" class="primary" @click=${() => {
+                  this.renderRoot.querySelector<HTMLDialogElement>('#load-anyway')?.close();
+                  emit(this, 'ancb-accept-model');
+                }}>Load it, unverified</button>
+              </div>
+            </dialog>`}`;
   }
 
   private renderGeometry(): unknown {

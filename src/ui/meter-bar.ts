@@ -10,12 +10,15 @@
  * under the bar with `splPrefix` (e.g. "≤ " for an upper bound) and `splNote` (the frequency range
  * the calibration holds for); it is in `data-spl`.
  *
+ * Levels (unit dBFS) have a floor: below LEVEL_FLOOR_DBFS (silence included) the reading is
+ * "below −120" and `data-value` is empty; other units (dB of gain reduction) show any finite value.
+ *
  * Attributes: label, unit, min, max, channel (a name for tests and styling).
  * Parts: `bar` (canvas), `value` (reading).
  */
 import { LitElement, css, html, type PropertyValues } from 'lit';
 import { shared, themeColor } from './theme.ts';
-import { fmtDb } from './format.ts';
+import { LEVEL_FLOOR_DBFS, fmtDb, fmtLevel } from './format.ts';
 
 const TEXT_INTERVAL_MS = 125;
 
@@ -136,7 +139,7 @@ export class AncbMeter extends LitElement {
     // the readings' text is set outside Lit (8 times a second, in show()), so their elements carry no
     // bindings a re-render could trip over: fill them after each render
     const v = this.valueEl;
-    if (v && !v.textContent) v.textContent = `${fmtDb(this.value)} ${this.unit}`;
+    if (v && !v.textContent) v.textContent = `${this.reading(this.value)} ${this.unit}`;
     if (changed.has('splOffsetDb') || changed.has('splPrefix')) this.showSpl(this.value);
   }
 
@@ -159,6 +162,11 @@ export class AncbMeter extends LitElement {
     this.draw();
   }
 
+  /** The reading's text: a level keeps to its floor; other units show the figure. */
+  private reading(v: number): string {
+    return this.unit === 'dBFS' ? fmtLevel(v) : fmtDb(v);
+  }
+
   /** Show a reading (in this meter's unit), an optional peak marker and an optional cap marker. */
   show(value: number, peak = NaN, cap = NaN, nowMs = performance.now()): void {
     this.value = value;
@@ -167,8 +175,9 @@ export class AncbMeter extends LitElement {
     this.draw();
     if (nowMs - this.lastText >= TEXT_INTERVAL_MS) {
       this.lastText = nowMs;
-      this.shownValue = Number.isFinite(value) ? Math.round(value * 10) / 10 : NaN;
-      const text = `${fmtDb(value)} ${this.unit}`;
+      const floored = this.unit === 'dBFS' && value < LEVEL_FLOOR_DBFS;
+      this.shownValue = Number.isFinite(value) && !floored ? Math.round(value * 10) / 10 : NaN;
+      const text = `${this.reading(value)} ${this.unit}`;
       if (this.valueEl && this.valueEl.textContent !== text) this.valueEl.textContent = text;
       const data = Number.isFinite(this.shownValue) ? String(this.shownValue) : '';
       if (this.dataset.value !== data) {
@@ -190,9 +199,9 @@ export class AncbMeter extends LitElement {
       return;
     }
     const spl = value + off;
-    const text = `${this.splPrefix}${fmtDb(spl)} dB SPL`;
+    const text = `${this.splPrefix}${fmtLevel(spl, 1, LEVEL_FLOOR_DBFS + off)} dB SPL`;
     if (el && el.textContent !== text) el.textContent = text;
-    const data = Number.isFinite(spl) ? (Math.round(spl * 10) / 10).toString() : '';
+    const data = Number.isFinite(spl) && value >= LEVEL_FLOOR_DBFS ? (Math.round(spl * 10) / 10).toString() : '';
     if (this.dataset.spl !== data) this.dataset.spl = data;
   }
 

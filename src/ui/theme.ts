@@ -1,12 +1,14 @@
 /**
  * Colours and type for the panel, as CSS custom properties on the document root (they inherit into
- * every shadow root). Two themes, both chosen for a projector across a room: large type, strong
- * contrast, and series colours that differ in lightness as well as hue (readable for common colour
- * vision deficiencies and on washed-out projectors).
+ * every shadow root). The colours are the project's palette (src/palette.ts, contrast-checked to
+ * WCAG 2.1 AA there); this module writes the chosen theme's colours as `--ancb-<name>` properties.
+ * Two themes, both for a projector across a room: large type, strong contrast, and series colours
+ * that differ in lightness as well as hue.
  */
 import { css } from 'lit';
+import { THEMES, type ThemeName } from '../web/index.ts';
 
-export type ThemeName = 'dark' | 'light';
+export type { ThemeName };
 
 const STORAGE_KEY = 'ancbench.theme';
 
@@ -21,7 +23,10 @@ export function initialTheme(): ThemeName {
 }
 
 export function applyTheme(t: ThemeName): void {
-  document.documentElement.dataset.theme = t;
+  const root = document.documentElement;
+  root.dataset.theme = t;
+  root.style.colorScheme = t;
+  for (const [name, value] of Object.entries(THEMES[t])) root.style.setProperty(`--ancb-${name}`, value);
   try {
     localStorage.setItem(STORAGE_KEY, t);
   } catch {
@@ -104,6 +109,29 @@ export const shared = css`
   }
   .warn {
     color: var(--ancb-warn);
+  }
+  /* Measured figures and estimates look different everywhere: an estimate is italic, underlined with
+     dots and in its own colour, and its tag says "estimate"; a measurement keeps the plain face. */
+  .est {
+    font-style: italic;
+    color: var(--ancb-estimate);
+    text-decoration: underline dotted;
+    text-underline-offset: 0.2em;
+  }
+  .tag {
+    display: inline-block;
+    font-size: 0.7rem;
+    font-style: normal;
+    font-weight: 650;
+    letter-spacing: 0.04em;
+    text-transform: uppercase;
+    border: 1px solid currentColor;
+    border-radius: 4px;
+    padding: 0 0.25rem;
+    vertical-align: 0.15em;
+  }
+  .meas .tag {
+    color: var(--ancb-on);
   }
 `;
 

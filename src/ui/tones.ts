@@ -1,18 +1,28 @@
 /**
  * <ancb-tones>: what the tone follower does, at a glance: the tracked fundamental and lock, and per
- * harmonic its frequency, level before and after control at the error mic (dBFS, AES17), the
- * attenuation, and how far the counter-signal is from anti-phase (0° = exactly opposite the
- * disturbance). The display loop calls `show(state)`; cells change by textContent, at most four
- * times a second, and the table's rows are rebuilt only when the number of harmonics changes.
+ * harmonic its frequency, the error mic's level around it without and with control, the attenuation,
+ * and how far the anti-noise is from anti-phase.
+ *
+ * Measured and estimated figures are kept apart and look different:
+ *  - "before" and "after" are measured: the error-mic level in a band around k·f₀ (tone-levels.ts)
+ *    from the panel's control-off and control-on spectra (live: the last seconds recorded with control
+ *    off, and with control on; simulated: the simulator's control-off twin and the controlled plant);
+ *  - attenuation is before − after, shown only when the app allows a measured attenuation (a
+ *    control-off level exists and the model is not unverified), otherwise a placeholder and the reason;
+ *  - the phase error rests on the secondary-path model (the controller's own estimate) and is marked
+ *    as an estimate.
+ * The display loop calls `show(state)`; cells change by textContent, at most four times a second, and
+ * the table's rows are rebuilt only when the number of harmonics changes.
  */
 import { LitElement, css, html } from 'lit';
 import { shared, tableStyles } from './theme.ts';
-import { fmtDb, fmtHz } from './format.ts';
+import { NO_VALUE, fmtDb, fmtDeg, fmtHz, fmtLevel } from './format.ts';
+import { toneBandText, toneLevelDbfs, type Spectrum } from './tone-levels.ts';
 import type { DisplayState } from './display-state.ts';
 
 const INTERVAL_MS = 250;
 
-/** Distance from anti-phase in degrees (0 … 180): 0 when the counter-signal is exactly opposite. */
+/** Distance from anti-phase in degrees (0 … 180): 0 when the anti-noise is exactly opposite. */
 export function fromAntiPhaseDeg(counterPhaseDeg: number): number {
   const d = Math.abs(counterPhaseDeg);
   return 180 - d;
@@ -51,6 +61,9 @@ export class AncbTones extends LitElement {
       .note {
         margin: 0.4rem 0 0;
       }
+      .legend {
+        margin: 0 0 0.3rem;
+      }
       th,
       td {
         padding: 0.2rem 0.5rem;
@@ -60,10 +73,26 @@ export class AncbTones extends LitElement {
 
   declare rows: number;
   private last = 0;
+  private off: Spectrum | null = null;
+  private on: Spectrum | null = null;
+  /** Why no attenuation is shown ('' when it may be). */
+  private noAttenuation = 'no spectra yet';
+  private basis = '';
 
   constructor() {
     super();
     this.rows = 0;
+  }
+
+  /**
+   * The measured spectra behind "before" and "after" (null: none yet), what the control-off one rests
+   * on, and why attenuation may not be shown ('' when it may).
+   */
+  setSpectra(off: Spectrum | null, on: Spectrum | null, basis: string, noAttenuation: string): void {
+    this.off = off;
+    this.on = on;
+    this.basis = basis;
+    this.noAttenuation = noAttenuation;
   }
 
   show(d: DisplayState, nowMs: number): void {
@@ -76,12 +105,19 @@ export class AncbTones extends LitElement {
     };
     set('.f0', fmtHz(d.toneHz));
     set('.lock', Number.isNaN(d.toneLocked) ? '' : d.toneLocked === 1 ? 'locked' : 'searching');
+    const band = this.off ? toneBandText(this.off.resolutionHz) : 'a band around each harmonic';
+    set('.basis', `Before: ${this.basis || 'control-off spectrum'}, ${band}. After: the same band with control on.`);
+    set('.why', this.noAttenuation ? `Attenuation not shown: ${this.noAttenuation}.` : '');
     for (let k = 0; k < this.rows; k++) {
-      set(`#hz${k}`, fmtHz(d.hHz[k]!));
-      set(`#b${k}`, fmtDb(d.hBeforeDb[k]!));
-      set(`#a${k}`, fmtDb(d.hAfterDb[k]!));
-      set(`#att${k}`, fmtDb(d.hAttDb[k]!));
-      set(`#ph${k}`, Number.isFinite(d.hPhaseDeg[k]!) ? `${fromAntiPhaseDeg(d.hPhaseDeg[k]!).toFixed(0)}°` : '—');
+      const hz = d.hHz[k]!;
+      const before = this.off ? toneLevelDbfs(this.off, hz) : NaN;
+      const after = this.on ? toneLevelDbfs(this.on, hz) : NaN;
+      set(`#hz${k}`, fmtHz(hz));
+      set(`#b${k}`, fmtLevel(before));
+      set(`#a${k}`, fmtLevel(after));
+      set(`#att${k}`, this.noAttenuation ? NO_VALUE : fmtDb(before - after));
+      const ph = d.hPhaseDeg[k]!;
+      set(`#ph${k}`, Number.isFinite(ph) && Number.isFinite(hz) && hz > 0 ? fmtDeg(fromAntiPhaseDeg(ph)) : NO_VALUE);
     }
   }
 
@@ -92,15 +128,17 @@ export class AncbTones extends LitElement {
       ${this.rows === 0
         ? html`<p class="muted">Not running. Choose “Tone follower” as the algorithm to control tones and harmonics.</p>`
         : html`<div class="head"><span class="muted">fundamental</span><span class="f0" aria-live="off">—</span><span class="lock"></span></div>
+            <p class="legend small"><span class="meas">before, after, attenuation <span class="tag">measured</span></span> · <span class="est">phase error <span class="tag">estimate</span></span></p>
             <div class="scroll"><table>
               <thead>
-                <tr><th scope="col">#</th><th scope="col">frequency</th><th scope="col">before</th><th scope="col">after</th><th scope="col">attenuation</th><th scope="col">phase error</th></tr>
+                <tr><th scope="col">#</th><th scope="col">frequency</th><th scope="col">before</th><th scope="col">after</th><th scope="col">atten.</th><th scope="col" class="est">phase err.</th></tr>
               </thead>
               <tbody>
-                ${rows.map((k) => html`<tr><td>${k + 1}</td><td id=${`hz${k}`}>—</td><td id=${`b${k}`}>—</td><td id=${`a${k}`}>—</td><td id=${`att${k}`}>—</td><td id=${`ph${k}`}>—</td></tr>`)}
+                ${rows.map((k) => html`<tr><td>${k + 1}</td><td id=${`hz${k}`}>—</td><td id=${`b${k}`}>—</td><td id=${`a${k}`}>—</td><td id=${`att${k}`}>—</td><td id=${`ph${k}`} class="est">—</td></tr>`)}
               </tbody>
             </table></div>
-            <p class="note small muted">Before and after: the harmonic's level at the error mic without and with control, dBFS (AES17). Attenuation in dB. Phase error: how far the counter-signal is from exact anti-phase.</p>`}
+            <p class="note small muted"><span class="basis"></span> Levels in dBFS (AES17), attenuation (before − after) in dB. <span class="why warn"></span></p>
+            <p class="note small muted"><span class="est">Phase error</span>: how far the anti-noise is from exact anti-phase, estimated by the controller from the secondary-path model (not measured).</p>`}
     </section>`;
   }
 }

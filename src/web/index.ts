@@ -33,7 +33,6 @@ export {
   type ControllerSettings,
 } from './node-controller-options.ts';
 export {
-  EVENT_TEXT,
   EVENT_CAUSE_CODES,
   EVENT_ACTIONS,
   HARMONIC_FIELDS,
@@ -77,3 +76,11 @@ export {
 } from '../engine/settings.ts';
 
 export { DEFAULT_OUTPUT_CONSTRAINT, DEFAULT_OUTPUT_MARGIN_DB, OUTPUT_CONSTRAINT_METHODS, type OutputConstraintMethod } from '../dsp/output-constraint.ts';
+
+export { EVENT_TEXT } from './event-words.ts';
+export { SPECTRUM_UNIT } from '../analysis/welch.ts';
+export { DEFAULT_CROSSFADE_MS } from '../engine/engine.ts';
+export { NON_FINITE_SOURCES } from '../engine/events.ts';
+export { powerToDbfs } from '../dsp/units.ts';
+export { MIN_USABLE_SNR_DB } from '../analysis/live-analysis.ts';
+export { THEMES, type ThemeName } from '../palette.ts';

@@ -15,13 +15,13 @@
  *
  * Nothing here runs at import time (the package declares `sideEffects: false`).
  */
+import { EVENT_TEXT } from './event-words.ts';
 import type { IAudioContext, IAudioParam, IAudioWorkletNode, IOfflineAudioContext } from 'standardized-audio-context';
 import { Engine } from '../engine/engine.ts';
 import { checkControllerSettings } from '../engine/settings.ts';
 import type { ControllerConfig } from '../engine/controller-factory.ts';
 import { LiveAnalysis, type IdentificationResult } from '../analysis/live-analysis.ts';
 import {
-  EVENT_TEXT,
   LIVE_PARAMETERS,
   MODE_CODES,
   M,

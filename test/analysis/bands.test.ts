@@ -14,8 +14,8 @@ import { expectClose, expectRelClose } from '../helpers/tolerance.ts';
 describe('bands', () => {
   describe('fractionalOctaveBand', () => {
     it('should give the IEC 61260-1 mid-band and edge frequencies at 1 kHz', () => {
-      // IEC 61260-1:2014 clause 5 (REFERENCES.md, src): G = 10^(3/10); 1/3-octave at 1 kHz 891.25–1122.02 Hz;
-      // octave at 1 kHz 707.95–1412.54 Hz.
+      // IEC 61260-1:2014 clause 5: G = 10^(3/10), edges f_m·G^(∓1/(2b)); the edges here are calculated from those
+      // formulas: 1/3-octave at 1 kHz 891.25–1122.02 Hz; octave at 1 kHz 707.95–1412.54 Hz (docs/references.md).
       expectClose(OCTAVE_RATIO, 1.99526, 5e-6, 'G');
       const third = fractionalOctaveBand(0, 3);
       expect(third.centerHz).toBe(1000);
@@ -28,7 +28,7 @@ describe('bands', () => {
     });
 
     it('should label the band whose exact mid-band frequency is 31.623 Hz as nominal 31.5 Hz', () => {
-      // IEC 61260-1:2014 (REFERENCES.md, src): nominal 31.5 Hz is 31.623 Hz exactly.
+      // IEC 61260-1:2014: the band labelled 31.5 Hz has the exact mid-band frequency 10^1.5 = 31.623 Hz (calculated from clause 5).
       const octave = fractionalOctaveBand(-5, 1);
       expectClose(octave.centerHz, 31.623, 0.0005, 'octave centre');
       expect(octave.nominalHz).toBe(31.5);

@@ -13,8 +13,8 @@ import { expectClose } from '../helpers/tolerance.ts';
 describe('bounds', () => {
   describe('coherenceBoundDb', () => {
     it('should give the published bound values', () => {
-      // Nelson & Elliott, Active Control of Sound, 1992 (from memory; REFERENCES.md mem, calc):
-      // γ² = 0.5, 0.75, 0.9, 0.95, 0.99, 0.999 → 3.01, 6.02, 10.0, 13.0, 20.0, 30.0 dB.
+      // The bound −10·log10(1 − γ²) of Nelson & Elliott, Active Control of Sound, 1992 (from memory); the values are
+      // calculated from it: γ² = 0.5, 0.75, 0.9, 0.95, 0.99, 0.999 → 3.01, 6.02, 10.0, 13.0, 20.0, 30.0 dB.
       // Tolerance: half a unit in the last digit published (3.01 → ±0.005, 13.0 → ±0.05).
       const table: [number, number, number][] = [
         [0.5, 3.01, 0.005], [0.75, 6.02, 0.005], [0.9, 10.0, 0.05], [0.95, 13.0, 0.05], [0.99, 20.0, 0.05], [0.999, 30.0, 0.05],

@@ -10,7 +10,8 @@ import { expectClose } from '../helpers/tolerance.ts';
 
 describe('exposure', () => {
   it('should give the NIOSH permissible times: 85 dBA 8 h, 88 → 4 h, 91 → 2 h, 94 → 1 h, 100 → 15 min', () => {
-    // NIOSH, Criteria for a Recommended Standard: Occupational Noise Exposure, 1998 (REFERENCES.md, src).
+    // NIOSH, Criteria for a Recommended Standard: Occupational Noise Exposure, 1998 (DHHS (NIOSH) 98-126), chapter 1:
+    // T = 8 / 2^((L − 85)/3) hours (docs/references.md).
     expectClose(nioshPermissibleHours(85), 8, 1e-12, '85 dBA');
     expectClose(nioshPermissibleHours(88), 4, 1e-12, '88 dBA');
     expectClose(nioshPermissibleHours(91), 2, 1e-12, '91 dBA');
@@ -19,7 +20,7 @@ describe('exposure', () => {
   });
 
   it('should give the OSHA permissible times: 90 dBA 8 h, 95 → 4 h, 100 → 2 h', () => {
-    // 29 CFR 1910.95, Table G-16 (REFERENCES.md, src); 94 dBA → 4.6 h in Table G-16a of
+    // 29 CFR 1910.95, Table G-16 (docs/references.md); 94 dBA → 4.6 h in Table G-16a of
     // Appendix A (from memory).
     expectClose(oshaPermissibleHours(90), 8, 1e-12, '90 dBA');
     expectClose(oshaPermissibleHours(95), 4, 1e-12, '95 dBA');

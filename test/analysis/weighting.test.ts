@@ -12,7 +12,7 @@ interface Table3Row {
 }
 
 // IEC 61672-1:2013 Table 3. Provenance per value is in the fixture's "provenance" field: the A values at
-// 10 Hz–4 kHz are from REFERENCES.md (src); the others are from memory.
+// 10 Hz–4 kHz were checked against the table; the others are from memory (docs/references.md).
 const table3 = JSON.parse(
   readFileSync(new URL('../fixtures/analysis/iec61672-table3.json', import.meta.url), 'utf8'),
 ) as { rows: Table3Row[] };
@@ -20,7 +20,7 @@ const table3 = JSON.parse(
 describe('weighting', () => {
   describe('weightingDb', () => {
     it('should match IEC 61672-1:2013 Table 3 for A and C within 0.1 dB at the exact base-ten mid-band frequencies', () => {
-      // IEC 61672-1:2013 Annex E formula (REFERENCES.md, src) against Table 3 (partly from memory, see fixture).
+      // IEC 61672-1:2013 Annex E formula against Table 3 (partly from memory, see fixture).
       expect(table3.rows.length).toBe(34);
       for (const row of table3.rows) {
         const f = Math.pow(10, row.exponent / 10);
@@ -31,7 +31,7 @@ describe('weighting', () => {
     });
 
     it('should use the exact band frequencies: 12.5 Hz itself is off the tabulated −63.4 dB', () => {
-      // REFERENCES.md (calc): A(12.589 Hz) = −63.37 dB, A(12.5 Hz) = −63.58 dB; Table 3 lists −63.4 at the exact frequency.
+      // Calculated from the Annex E formula: A(12.589 Hz) = −63.37 dB, A(12.5 Hz) = −63.58 dB; Table 3 lists −63.4 at the exact frequency.
       const exact = fractionalOctaveBand(-19, 3);
       expect(exact.nominalHz).toBe(12.5);
       expectClose(exact.centerHz, 12.589, 0.0005, 'exact 12.5 Hz band');
@@ -64,7 +64,7 @@ describe('weighting', () => {
       expect(out[0]).toBe(0);
       const curve = weightingCurveDb(frequencies, { weighting: 'A' });
       for (let k = 1; k < 4; k++) expectClose(10 * Math.log10(out[k]! / 2), curve[k]!, 1e-12, `bin ${k}`);
-      // A at 31.5 Hz ≈ −39.4 dB (IEC 61672-1:2013 Table 3, REFERENCES.md src; 31.5 Hz is near the exact 31.62 Hz).
+      // A at 31.5 Hz ≈ −39.4 dB (IEC 61672-1:2013 Table 3; 31.5 Hz is near the exact 31.62 Hz).
       expectClose(10 * Math.log10(out[1]! / 2), -39.4, 0.2, 'A-weighted 31.5 Hz bin');
       const inPlace = applyWeightingToPsd(psd, frequencies, { weighting: 'C' }, psd);
       expect(inPlace).toBe(psd);

@@ -45,8 +45,10 @@ describe('solveToeplitz (Levinson recursion)', () => {
   });
 });
 
-// The Wiener solution of a transversal filter, R·w = −p and E_min = E[d²] − pᵀR⁻¹p (Widrow & Stearns,
-// *Adaptive Signal Processing*, 1985, ch. 2; from memory); Levinson, J. Math. Phys. 25, 1947.
+// The Wiener solution of a transversal filter: Widrow & Stearns, *Adaptive Signal Processing*, 1985, ch. 2
+// (from memory), write R·w* = p with E_min = E[d²] − pᵀR⁻¹p for e = d − y. With this project's e = d + y
+// (y = wᵀr) the same derivation gives R·w = −p and the same E_min (calculated from theirs with w → −w).
+// Levinson, J. Math. Phys. 25, 1947.
 describe('wienerBound', () => {
   it('should find the delayed, scaled reference for a pure-delay plant (white reference)', () => {
     // d(n) = −g·r(n − D): the optimum is w = g·δ(k − D), reaching the noise floor.

@@ -54,8 +54,8 @@ describe('controller switch on the simulated plant', () => {
     const watch = await watchPage(page);
     await page.locator('#start').click();
     await page.locator('#start', { hasText: 'Stop' }).waitFor({ timeout: 15000 });
-    await page.waitForTimeout(300);
-    await page.locator('#control').click();
+    // Start runs the plant with control on
+    await page.locator('#control-state[data-state="on"]').waitFor({ timeout: 5000 });
     await expect.poll(() => panelValue(page, '#att-now'), { timeout: 30000, interval: 200 }).toBeGreaterThan(20);
     await page.waitForTimeout(1200);
 

@@ -77,18 +77,41 @@ describe('live microphones (Chromium fake capture device)', () => {
     await page.locator('[data-field=delay]').waitFor({ timeout: 20000 });
     // the fake device cannot hear the loudspeaker: no response, so no model and no control
     expect(await page.locator('.status').textContent()).toContain('too poor');
-    const notes = await page.locator('ancb-live-setup ul.warn li').allTextContents();
-    expect(notes.join(' ')).toContain('no response to the probe');
+    // one diagnosis: no response, and no feedback figure measured against the missing response
+    const diagnosis = [await page.locator('#diagnosis').textContent(), ...(await page.locator('#diagnosis-more li').allTextContents())].join(' ');
+    expect(diagnosis).toContain('No response to the probe');
+    expect(diagnosis).not.toContain('reaches the reference mic strongly');
+    expect(await page.locator('[data-field=delay]').textContent()).toContain('not found');
     const control = page.locator('#control');
     expect(await control.isDisabled()).toBe(true);
     // the devices are listed now that access was granted
     expect(await page.locator('ancb-live-setup #dev option').count()).toBeGreaterThan(1);
+    // "Load it anyway" first says what will happen; cancelling loads nothing
     await page.locator('#accept-model').click();
-    await page.locator('.status', { hasText: 'Model loaded' }).waitFor({ timeout: 5000 });
+    const dialog = page.locator('ancb-live-setup #load-anyway');
+    await dialog.waitFor({ state: 'visible', timeout: 5000 });
+    expect(await dialog.textContent()).toContain('unverified');
+    await page.locator('#cancel-load').click();
+    expect(await control.isDisabled()).toBe(true);
+    await page.locator('#accept-model').click();
+    await page.locator('#confirm-load').click();
+    await page.locator('.status', { hasText: 'Model loaded UNVERIFIED' }).waitFor({ timeout: 5000 });
+    expect(await page.locator('#model-trust').getAttribute('data-trust')).toBe('unverified');
     expect(await control.isDisabled()).toBe(false);
     await control.click();
-    await page.locator('#control[aria-pressed="true"]').waitFor({ timeout: 5000 });
-    await page.waitForTimeout(1000);
+    // the control run is labelled: the state chip and the status say the model is unverified
+    await page.locator('#control-state:not([data-state="off"])').waitFor({ timeout: 5000 });
+    expect(await page.locator('#control-state').textContent()).toContain('model unverified');
+    expect(await page.locator('.status').textContent()).toContain('UNVERIFIED');
+    await page.waitForTimeout(4000);
+    // no acoustic loop: no attenuation figure is shown as measured, and the panel says why
+    for (const id of ['#att-now', '#att-avg']) {
+      expect(await panelValue(page, id)).toBeNaN();
+      expect(await page.locator(id).getAttribute('data-kind')).toBe('none');
+    }
+    expect(await page.locator('[data-kind="measured"]').count()).toBe(0);
+    expect(await page.locator('#att-basis').textContent()).toContain('unverified');
+    expect(await page.locator('#model-trust').getAttribute('data-trust')).toBe('unverified');
     // the output never exceeds the cap whatever the model
     const { outPeak, capDb } = await page.evaluate(() => {
       const d = document.querySelector('ancb-app')!.display;
@@ -98,6 +121,9 @@ describe('live microphones (Chromium fake capture device)', () => {
     expect(Number.isNaN(outPeak) || outPeak <= capDb + 1e-6).toBe(true);
     await page.screenshot({ path: resolve(root, 'test-results/browser/panel-live-fake-mic.png'), fullPage: true });
     await control.click();
+    await page.locator('#control-state[data-state="off"]').waitFor({ timeout: 5000 });
+    // no "input connected again" at the start of a session: the input was never lost
+    expect(await page.locator('ancb-events li[data-cause="input-restored"]').count()).toBe(0);
     expect(await watch.csp()).toEqual([]);
     expect(watch.errors).toEqual([]);
   });

@@ -31,10 +31,13 @@ describe('panel from the keyboard', () => {
     expect(await tabTo(page, 'start')).toBe(true);
     await page.keyboard.press('Enter');
     await page.locator('#start', { hasText: 'Stop' }).waitFor({ timeout: 15000 });
-    // Stop keeps the focus's place in the tab order; Control follows it
+    // Start runs the plant with control on; the control button beside it turns control off and on again
+    await page.locator('#control-state[data-state="on"]').waitFor({ timeout: 5000 });
     expect(await tabTo(page, 'control')).toBe(true);
     await page.keyboard.press('Space');
-    await page.locator('#control[aria-pressed="true"]').waitFor({ timeout: 5000 });
+    await page.locator('#control-state[data-state="off"]').waitFor({ timeout: 5000 });
+    await page.keyboard.press('Space');
+    await page.locator('#control-state[data-state="on"]').waitFor({ timeout: 5000 });
     await expect.poll(() => panelValue(page, '#att-now'), { timeout: 30000, interval: 200 }).toBeGreaterThan(10);
 
     expect(await tabTo(page, 'mu')).toBe(true);

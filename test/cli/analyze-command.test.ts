@@ -116,7 +116,8 @@ describe('ancbench analyze', () => {
       ] as const;
       for (const [name, encode] of cases) {
         const j = await analyzeJson(['--ref', write(`r-${name}.wav`, encode(c[0]!)), '--err', write(`e-${name}.wav`, encode(c[3]!)), '--control-on', write(`o-${name}.wav`, encode(c[1]!))]);
-        // 16-bit quantisation noise (−101 dBFS) is far below these signals: the figures agree within 0.1 dB.
+        // 16-bit quantisation noise (about −98 dBFS on the AES17 scale, calculated from q²/12 with q = 2^−15:
+        // 10·log10(2·q²/12)) is far below these signals: the figures agree within 0.1 dB.
         expect(Math.abs(j.coherenceBoundDb - base.coherenceBoundDb), name).toBeLessThan(0.1);
         expect(Math.abs(j.overall.attenuationDb - base.overall.attenuationDb), name).toBeLessThan(0.1);
         expect(j.causality.primaryDelayMs).toBeCloseTo(base.causality.primaryDelayMs, 2);

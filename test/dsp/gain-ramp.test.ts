@@ -88,7 +88,7 @@ describe('GainRamp', () => {
   });
 
   it('should give the same gains whatever the block sizes', () => {
-    // Streaming contract (DESIGN.md).
+    // Streaming contract (DEVELOPERS.md, src/dsp: process(input, output, n) on any block size).
     const one = new GainRamp({ sampleRate: FS });
     one.start();
     const whole = gains(one, 3000, 3000);

@@ -147,7 +147,8 @@ describe('OutputLimiter', () => {
 
     it('should never let a sample exceed the ceiling in zero-latency mode, and report the true peak it cannot limit', () => {
       // Zero-latency mode guarantees the sample peak only. A 45°-phase fs/4 sine has its true
-      // peak 3.01 dB above its samples (ITU-R BS.1770-4 Annex 2; REFERENCES.md), so the output true
+      // peak 3.01 dB above its samples (calculated: the samples are sin(π/4) = −3.01 dB of the crest; ITU-R BS.1770-4
+      // Annex 2 measures true peak by 4× oversampling), so the output true
       // peak must read about 3 dB over the ceiling while the samples stay at it.
       const lim = new OutputLimiter(base);
       const c = Math.pow(10, -6 / 20);
@@ -230,7 +231,7 @@ describe('OutputLimiter', () => {
 
   describe('streaming', () => {
     it('should give identical output in place, out of place and for any block sizes', () => {
-      // Streaming contract (DESIGN.md): block boundaries and aliasing of input and output do not change the result.
+      // Streaming contract (DEVELOPERS.md, src/dsp: process(input, output, n) on any block size): block boundaries and aliasing of input and output do not change the result.
       const rng = new Random(3);
       const x = new Float32Array(5000);
       rng.fillGaussian(x, 0.8);

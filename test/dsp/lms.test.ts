@@ -46,7 +46,7 @@ describe('LmsFilter', () => {
     });
 
     it('should settle at the misadjustment of Feuer & Weinstein (1985) within 20 %', () => {
-      // Feuer & Weinstein, IEEE TASSP 33(1), 1985 (from memory; REFERENCES.md): white Gaussian input,
+      // Feuer & Weinstein, IEEE TASSP 33(1), 1985 (from memory): white Gaussian input,
       // H convention: M = μLσ² / (2 − μ(L + 2)σ²). μ = 0.005, L = 32 → 0.0874.
       const M = (mu * L * sigma2) / (2 - mu * (L + 2) * sigma2);
       const noise = 0.1; // measurement-noise RMS: J_min = 0.01
@@ -124,13 +124,13 @@ describe('LmsFilter', () => {
 describe('LmsCombiner', () => {
   describe('as the single-sinusoid adaptive noise canceller of Widrow et al. (1975)', () => {
     // Widrow et al., "Adaptive noise cancelling: principles and applications", Proc. IEEE 63(12), 1975
-    // (from memory; REFERENCES.md, calc): reference C·cos(ω0 n), C·sin(ω0 n), Widrow convention
+    // (from memory): reference C·cos(ω0 n), C·sin(ω0 n), Widrow convention
     // w ← w + 2μ_W·e·x. The canceller is a notch at ω0 with
     //   H(z) = (z² − 2z cos ω0 + 1) / (z² − 2(1 − μC²) z cos ω0 + 1 − 2μC²),
-    // 3 dB bandwidth 2μC² rad/sample; μ_W = 0.005, C = 1 → |H| = 0.7077 at 0.005 rad/sample from ω0.
+    // 3 dB bandwidth 2μC² rad/sample; μ_W = 0.005, C = 1 → |H| = 0.7077 at 0.005 rad/sample from ω0 (calculated from H(z)).
     const muW = 0.005;
     const C = 1;
-    const w0 = 0.6; // rad/sample; the REFERENCES.md figure 0.7077 does not state ω0, and |H| varies by ±0.5 % with it
+    const w0 = 0.6; // rad/sample; the figure 0.7077 is calculated without a stated ω0, and |H| varies by ±0.5 % with it
 
     function measureGain(offset: number): number {
       const c = new LmsCombiner(2, 2 * muW); // Haykin μ = 2μ_W

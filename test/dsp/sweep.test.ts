@@ -16,7 +16,7 @@ function localFrequency(x: Float64Array, from: number, sampleRate: number): { hz
 
 describe('harmonicAdvanceS', () => {
   it("should give Farina's advances of harmonics 2, 3 and 4 for a 10 s sweep from 20 Hz to 20 kHz", () => {
-    // Farina, AES 108th Convention, preprint 5093, 2000: Δt = T·ln N / R; REFERENCES.md: 1.003, 1.590, 2.007 s.
+    // Farina, AES 108th Convention, preprint 5093, 2000: Δt = T·ln N / R; calculated from it: 1.003, 1.590, 2.007 s.
     expectClose(harmonicAdvanceS(2, 10, 20, 20000), 1.003, 0.0005, 'N = 2');
     expectClose(harmonicAdvanceS(3, 10, 20, 20000), 1.590, 0.0005, 'N = 3');
     expectClose(harmonicAdvanceS(4, 10, 20, 20000), 2.007, 0.0005, 'N = 4');

@@ -28,7 +28,7 @@ describe('TruePeakMax', () => {
       expect(fast.nonFiniteCount).toBe(1);
     });
 
-    it('should read 0 dBTP for the fs/4 sine at 45° whose samples peak at −3.01 dBFS (ITU-R BS.1770-4, REFERENCES.md)', () => {
+    it('should read 0 dBTP for the fs/4 sine at 45° whose samples peak at −3.01 dBFS (ITU-R BS.1770-4 Annex 2; calculated: sin(π/4) = −3.01 dB)', () => {
       const m = new TruePeakMax(128);
       const x = new Float32Array(128).map((_, i) => Math.sin((Math.PI / 2) * i + Math.PI / 4));
       for (let b = 0; b < 4; b++) m.processMax(x, 128);

@@ -11,7 +11,7 @@ function sine(n: number, cyclesPerSample: number, phase: number, amplitude = 1):
 
 describe('TruePeakMeter', () => {
   it('should read a 45°-phase sine at fs/4 as −3.01 dBFS sample peak and 0 dBTP true peak', () => {
-    // ITU-R BS.1770-4 Annex 2; REFERENCES.md "true peak" row (src, calc): sample peak −3.01 dBFS,
+    // ITU-R BS.1770-4 Annex 2 (4× oversampling); calculated: sample peak sin(π/4) = −3.01 dBFS,
     // true peak 0 dBTP. The Annex 2 filter evaluates points 1/8 sample away from the crest and has
     // ±0.23 dB passband ripple, hence ±0.1 dB here (this filter reads +0.045 dB).
     const x = sine(4800, 0.25, Math.PI / 4);
@@ -62,7 +62,7 @@ describe('TruePeakMeter', () => {
   });
 
   it('should give the same reading whatever the block boundaries', () => {
-    // Streaming contract (DESIGN.md): a block-based meter must not depend on how the stream is cut.
+    // Streaming contract (DEVELOPERS.md, src/dsp: process(input, output, n) on any block size): a block-based meter must not depend on how the stream is cut.
     const rng = new Random(5);
     const x = new Float32Array(3000);
     rng.fillGaussian(x, 0.3);

@@ -7,7 +7,7 @@ import { EventRing, createEventBatch } from '../../src/engine/events.ts';
 import { Random } from '../../src/dsp/random.ts';
 import { HEAP_BUDGET_BYTES, heapGrowth } from '../helpers/heap.ts';
 
-// No allocation per block (ancbench rule for src/dsp and the engine's real-time path, DESIGN.md),
+// No allocation per block (ancbench rule for src/dsp and the engine's real-time path, DEVELOPERS.md),
 // measured by the new-space harness in test/helpers/heap.ts; the control step proves it sees an
 // allocation.
 

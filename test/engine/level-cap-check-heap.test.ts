@@ -3,7 +3,7 @@ import { LevelCapCheck } from '../../src/engine/level-cap-check.ts';
 import { createEventBatch } from '../../src/engine/events.ts';
 import { HEAP_BLOCKS, HEAP_BUDGET_BYTES, heapGrowth } from '../helpers/heap.ts';
 
-// No allocation per block (DESIGN.md: the AudioWorklet drives `process` on the audio thread).
+// No allocation per block (DEVELOPERS.md, 'Real-time code and the JIT': the AudioWorklet drives `process` on the audio thread).
 // Measured by the new-space harness in test/helpers/heap.ts: any per-block allocation (≥ 12 bytes) over
 // 4000 blocks is ≥ 48 kB, against a 16 kB budget. A control step that allocates proves the harness sees it.
 

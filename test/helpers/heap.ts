@@ -1,4 +1,4 @@
-// Heap-growth harness for the "no allocation per block" rule (DESIGN.md: src/dsp and the engine's
+// Heap-growth harness for the "no allocation per block" rule (DEVELOPERS.md, 'Layers' and 'Real-time code and the JIT': src/dsp and the engine's
 // real-time path). A garbage collection is forced, the blocks run, and the young generation ("new
 // space", where short-lived objects are born) is read before any further collection could hide
 // garbage; it holds far more than the budget. Old space is not counted: the JIT and feedback data grow

@@ -77,10 +77,11 @@ describe('LiveAnalysis.spectra', () => {
     const k = Math.round(hz / s.resolutionHz);
     // amplitudes 0.1 and 0.01: 20 dB apart
     expectClose(s.offDb[k]! - s.onDb[k]!, 20, 0.1, 'off − on at the tone (dB)');
-    // Welch density: the PSD integrates to the mean square, A²/2 for a sine (Welch, IEEE Trans. AU-15(2), 1967)
+    // Welch density: the PSD integrates to the mean square, A²/2 for a sine (Welch, IEEE Trans. AU-15(2), 1967);
+    // on the AES17 dBFS/Hz scale (10·log10(2·PSD)) the integral is 2·A²/2 = A², i.e. 20·log10(A) dBFS
     let total = 0;
     for (let i = 0; i < s.offDb.length; i++) total += Math.pow(10, s.offDb[i]! / 10) * s.resolutionHz;
-    expectClose(total, 0.1 ** 2 / 2, 0.0002, 'integrated control-off PSD');
+    expectClose(total, 0.1 ** 2, 0.0004, 'integrated control-off PSD (2 × mean square)');
   });
 });
 
