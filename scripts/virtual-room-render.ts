@@ -8,7 +8,8 @@
  * them real audio I/O.
  *
  * One pacat stream carries both channels, so the delay between them is exactly the scenario's;
- * pacat's pipe paces the rendering at the server's clock.
+ * pacat's pipe paces the rendering at the server's clock. The stream keeps 0.4 s buffered (the noise's
+ * own latency does not matter), so a busy machine can pause this process without the room going quiet.
  */
 import { spawn, type ChildProcess } from 'node:child_process';
 import { createSource, type SourceGenerator, type WavTable } from '../src/plant/sources.ts';
@@ -88,7 +89,7 @@ export class RoomRenderer {
   /** Start playing into the room (resolves once the stream runs). */
   async start(): Promise<void> {
     if (this.proc) return;
-    const proc = spawn('pacat', ['--playback', `--device=${ROOM_DEVICES.room.name}`, '--raw', '--format=float32le', `--rate=${ROOM_RATE}`, '--channels=2', '--channel-map=front-left,front-right', '--latency-msec=40', '--no-remix', '--client-name=ancbench virtual room', '--stream-name=scenario'], {
+    const proc = spawn('pacat', ['--playback', `--device=${ROOM_DEVICES.room.name}`, '--raw', '--format=float32le', `--rate=${ROOM_RATE}`, '--channels=2', '--channel-map=front-left,front-right', '--latency-msec=400', '--no-remix', '--client-name=ancbench virtual room', '--stream-name=scenario'], {
       env: this.server.clientEnv,
       stdio: ['pipe', 'ignore', 'pipe'],
     });

@@ -27,7 +27,7 @@ describe('virtual room: device choice and identification', () => {
     const { page, server } = fx;
     // distinct levels on the two mics: 200 Hz at −20 dBFS on the reference, −40 dBFS on the error mic
     await fx.play(roomScenario([{ kind: 'tone', hz: 200, amplitude: 0.1 }], { delayMs: 0 }, { delayMs: 1, gain: 0.1 }));
-    await openLiveInRoom(page);
+    await openLiveInRoom(page, 'two-devices');
     await page.waitForTimeout(1500);
     const levels = await page.evaluate(() => {
       const d = document.querySelector('ancb-app')!.display;

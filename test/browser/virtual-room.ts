@@ -26,12 +26,12 @@ export { ROOM_DEVICES, ROOM_RATE, Recorder, RoomRenderer };
 export const BROWSER_BUFFER_FRAMES = 2048;
 
 /**
- * Chromium run at a raised CPU priority (nice −10; a plain user keeps 0 and nice says so), so the
+ * Chromium run at a raised CPU priority (nice −20; a plain user keeps 0 and nice says so), so the
  * audio threads that are not real-time keep up on a shared machine.
  */
 function chromiumWrapper(dir: string): string {
   const path = join(dir, 'chromium-nice.sh');
-  writeFileSync(path, `#!/bin/sh\nexec nice -n -10 "${CHROMIUM}" "$@"\n`, { mode: 0o755 });
+  writeFileSync(path, `#!/bin/sh\nexec nice -n -20 "${CHROMIUM}" "$@"\n`, { mode: 0o755 });
   return path;
 }
 
@@ -116,20 +116,28 @@ async function clickStart(page: Page): Promise<void> {
 
 /**
  * Live mode on the room's devices, chosen in the panel as a user would: Start on the defaults
- * (cautions first), then the layout "two devices", the reference and error mics and the loudspeaker,
- * then Stop and Start to use them.
+ * (cautions first), then the microphones and the loudspeaker, then Stop and Start to use them.
+ * Layout 'two-devices': the room's reference and error mics as two inputs; 'stereo': its two-channel
+ * input (one capture stream: less work for a loaded machine, no offset between two streams).
  */
-export async function openLiveInRoom(page: Page): Promise<void> {
+export async function openLiveInRoom(page: Page, layout: 'two-devices' | 'stereo' = 'stereo'): Promise<void> {
   await page.locator('input[name=source][value=live]').check();
   await page.locator('#start').click();
   const ok = page.locator('ancb-cautions #ok');
   await ok.waitFor({ timeout: 5000 });
   await ok.click();
   await page.locator('#start', { hasText: 'Stop' }).waitFor({ timeout: 20000 });
-  await page.locator('ancb-live-setup input[name=layout][value=two-devices]').waitFor({ timeout: 10000 });
-  await page.locator('ancb-live-setup input[name=layout][value=two-devices]').check();
-  await pick(page, 'ref-dev', ROOM_DEVICES.ref.label);
-  await pick(page, 'err-dev', ROOM_DEVICES.err.label);
+  const radio = page.locator(`ancb-live-setup input[name=layout][value=${layout}]`);
+  await radio.waitFor({ timeout: 10000 });
+  await radio.check();
+  if (layout === 'two-devices') {
+    await pick(page, 'ref-dev', ROOM_DEVICES.ref.label);
+    await pick(page, 'err-dev', ROOM_DEVICES.err.label);
+  } else {
+    await pick(page, 'dev', ROOM_DEVICES.both.label);
+    await page.locator('ancb-live-setup #ref-ch').selectOption('0');
+    await page.locator('ancb-live-setup #err-ch').selectOption('1');
+  }
   await pick(page, 'out-dev', ROOM_DEVICES.speaker.label);
   await page.locator('#start').click();
   await page.locator('#start', { hasText: 'Start' }).waitFor({ timeout: 10000 });
@@ -166,8 +174,9 @@ export async function identifyInPanel(page: Page): Promise<{ delaySamples: numbe
 export function panelStatus(page: Page): Promise<string> {
   return page.evaluate(() => {
     const root = document.querySelector('ancb-app')!.shadowRoot!;
-    const texts = [...root.querySelectorAll('.status, .banner, .warn')].map((e) => e.textContent!.trim().replace(/\s+/g, ' '));
-    return texts.filter(Boolean).join(' | ');
+    const texts = [...root.querySelectorAll('.status, .card.banner')].map((e) => e.textContent!.trim().replace(/\s+/g, ' '));
+    const events = root.querySelector('ancb-events')?.shadowRoot?.textContent?.trim().replace(/\s+/g, ' ') ?? '';
+    return [...new Set(texts.filter(Boolean))].join(' | ') + (events ? ` | events: ${events.slice(0, 1500)}` : '');
   });
 }
 
@@ -175,6 +184,24 @@ export async function setControl(page: Page, on: boolean): Promise<void> {
   const pressed = (await page.locator('#control').getAttribute('aria-pressed')) === 'true';
   if (pressed !== on) await page.locator('#control').click();
   await page.locator(`#control[aria-pressed="${on}"]`).waitFor({ timeout: 5000 });
+}
+
+/** Type a value into one of the panel's number inputs and commit it (the change event). */
+export async function setNumber(page: Page, id: string, value: number): Promise<void> {
+  const input = page.locator(`#${id}`);
+  await input.fill(String(value));
+  await input.dispatchEvent('change');
+}
+
+/** Poll a value of the panel's display state every `everyMs` for `ms`; returns the samples. */
+export async function sampleDisplay(page: Page, key: string, ms: number, everyMs = 200): Promise<number[]> {
+  const out: number[] = [];
+  const end = Date.now() + ms;
+  while (Date.now() < end) {
+    out.push(await page.evaluate((k) => (document.querySelector('ancb-app')!.display as unknown as Record<string, number>)[k]!, key));
+    await page.waitForTimeout(everyMs);
+  }
+  return out;
 }
 
 // ------------------------------------------------------------------ signal analysis (Node)
