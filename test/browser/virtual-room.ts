@@ -276,3 +276,25 @@ export function toneAmplitude(x: ArrayLike<number>, hz: number, fs: number, from
   }
   return (2 * Math.hypot(re, im)) / wsum;
 }
+
+/**
+ * 4×-oversampled true peak (linear) by the polyphase interpolator of ITU-R BS.1770-4 Annex 2
+ * (12 taps per phase, the coefficients the Recommendation lists; here from src/dsp/true-peak.ts).
+ */
+export function truePeak4x(x: ArrayLike<number>, h: ArrayLike<number>): number {
+  let m = 0;
+  for (let n = 11; n < x.length; n++) {
+    for (let p = 0; p < 4; p++) {
+      let y = 0;
+      for (let k = 0; k < 12; k++) y += h[p * 12 + k]! * x[n - k]!;
+      const a = Math.abs(y);
+      if (a > m) m = a;
+    }
+  }
+  return Math.max(m, peakAbs(x));
+}
+
+/** The panel's output cap now, dBFS. */
+export function capDbfs(page: Page): Promise<number> {
+  return page.evaluate(() => document.querySelector('ancb-app')!.settings.ceilingDbfs);
+}
