@@ -2,7 +2,9 @@
  * Watches for what makes a secondary-path model stale while control runs: the round trip through
  * the audio I/O can jump (a device change, a buffer resize) and one render quantum is already about
  * 48° of phase at 50 Hz (128 samples at 48 kHz = 2.67 ms; 360° · 50 Hz · 2.67 ms = 48°). Signals:
- *  - devicechange events from the media devices;
+ *  - devicechange events from the media devices, and a change of the listed audio devices found by
+ *    asking for the list every DEVICE_POLL_TICKS ticks (Chromium on Linux sends no devicechange when
+ *    a sound-server device comes or goes, found with the virtual room; the list does change);
  *  - a lasting change of the context's reported baseLatency + outputLatency by more than one quantum
  *    (LatencyJumpDetector: the browser's figure jitters from one reading to the next by several ms
  *    while nothing changes, so readings are compared as medians, against their own spread);
@@ -81,8 +83,27 @@ function reportedLatencyS(s: ReturnType<typeof contextStats>): number {
   return (Number.isFinite(s.baseLatencyS) ? s.baseLatencyS : 0) + (Number.isFinite(s.outputLatencyS) ? s.outputLatencyS : 0);
 }
 
+/** Ticks (0.5 s each) between two looks at the device list. */
+export const DEVICE_POLL_TICKS = 4;
+
+/** The audio devices the browser lists now, as one comparable string ('' when it cannot say). */
+async function audioDevicesKey(): Promise<string> {
+  try {
+    const all = (await navigator.mediaDevices?.enumerateDevices?.()) ?? [];
+    return all
+      .filter((d) => d.kind === 'audioinput' || d.kind === 'audiooutput')
+      .map((d) => `${d.kind}:${d.deviceId}`)
+      .sort()
+      .join('|');
+  } catch {
+    return '';
+  }
+}
+
 export class LatencyWatch {
   private timer: ReturnType<typeof setInterval> | null = null;
+  private ticks = 0;
+  private devicesKey: string | null = null;
   private jumps: LatencyJumpDetector | null = null;
   private lastUnderruns = NaN;
   private riseSince = NaN;
@@ -109,6 +130,11 @@ export class LatencyWatch {
     this.lastUnderruns = s.underrunEvents;
     this.timer = setInterval(() => this.tick(), 500);
     navigator.mediaDevices?.addEventListener?.('devicechange', this.onDeviceChange);
+    this.ticks = 0;
+    this.devicesKey = null;
+    void audioDevicesKey().then((k) => {
+      if (this.timer !== null && this.devicesKey === null) this.devicesKey = k;
+    });
   }
 
   stop(): void {
@@ -127,6 +153,15 @@ export class LatencyWatch {
       this.report({ timeS: this.ctx.currentTime, cause: 'underrun', action: 'none', values: { events: s.underrunEvents - this.lastUnderruns, durationMs: s.underrunDurationS * 1000 } }, false);
     }
     if (Number.isFinite(s.underrunEvents)) this.lastUnderruns = s.underrunEvents;
+    if (++this.ticks % DEVICE_POLL_TICKS === 0) void this.checkDevices();
+  }
+
+  private async checkDevices(): Promise<void> {
+    const k = await audioDevicesKey();
+    if (this.timer === null || k === '') return;
+    const before = this.devicesKey;
+    this.devicesKey = k;
+    if (before !== null && before !== '' && k !== before) this.onDeviceChange();
   }
 
   /** Feed each meter frame (control on only): detects a lasting rise of the error level. */
