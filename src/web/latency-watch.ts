@@ -137,6 +137,15 @@ export class LatencyWatch {
     });
   }
 
+  /**
+   * Start judging jumps afresh from the next readings: call when a model is loaded, since the
+   * latency it was measured with is the one that matters (the figure the browser reports also
+   * settles for a few seconds after the audio starts).
+   */
+  rebase(): void {
+    if (this.timer !== null) this.jumps = new LatencyJumpDetector(this.quantum / this.ctx.sampleRate);
+  }
+
   stop(): void {
     if (this.timer !== null) clearInterval(this.timer);
     this.timer = null;

@@ -405,6 +405,7 @@ export class Session {
     if (!this.settings.adaptation) this.post({ type: 'set-adaptation', on: false });
     this.identified = result;
     this.stale = false;
+    this.watch?.rebase();
     this.handlers.model({ taps: result.model, truePath: null, sampleRate: result.sampleRate, source: 'identified' });
   }
 
