@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { SKIP_CONTROL, ROOM_DEVICES, ROOM_RATE, Recorder, db, identifyInPanel, openLiveInRoom, panelStatus, rms, roomScenario, sampleDisplay, setControl, setNumber, toneAmplitude, useVirtualRoom } from './virtual-room.ts';
 
 /**
- * The tone follower on a hum through the virtual room: 120 Hz with its 2nd and 3rd harmonics
+ * The tone follower on a hum through the virtual room: 50 Hz with its 2nd and 3rd harmonics
  * reaches the error mic 20 ms after the reference mic; the panel identifies the loop, follows the
  * tone on the reference mic and cancels three harmonics. The independent recorder (parec on the
  * error mic) measures the error level with control off, then in the ninth and tenth second after
@@ -14,7 +14,7 @@ import { SKIP_CONTROL, ROOM_DEVICES, ROOM_RATE, Recorder, db, identifyInPanel, o
  * IEEE TASSP 37(9), 1989); the test takes a quarter of that bound for the delay the panel measured,
  * which converges without overshoot in about 2/μ samples (well under a second here).
  */
-const HUM_HZ = 120;
+const HUM_HZ = 50;
 const HUM = [0.03, 0.015, 0.0075]; // peak amplitudes of f₀, 2f₀, 3f₀ at the reference mic
 const SPEAKER_GAIN = 0.8;
 
@@ -48,7 +48,7 @@ describe.skipIf(SKIP_CONTROL)('virtual room: tone follower on a hum', () => {
     const status = await panelStatus(page);
     await setControl(page, false);
 
-    // control off: the second before the switch; control on: seconds 8 … 10 after it (whole periods of 120 Hz)
+    // control off: the second before the switch; control on: seconds 8 … 10 after it (whole periods of 50 Hz)
     const off = [Math.round((tOn - 1.5) * ROOM_RATE), Math.round((tOn - 0.5) * ROOM_RATE)] as const;
     const on = [Math.round((tOn + 8.2) * ROOM_RATE), Math.round(Math.min(tEnd - 0.1, tOn + 10) * ROOM_RATE)] as const;
     const attDb = db(rms(err, ...off) / rms(err, ...on));
