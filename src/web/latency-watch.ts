@@ -83,6 +83,9 @@ function reportedLatencyS(s: ReturnType<typeof contextStats>): number {
   return (Number.isFinite(s.baseLatencyS) ? s.baseLatencyS : 0) + (Number.isFinite(s.outputLatencyS) ? s.outputLatencyS : 0);
 }
 
+/** Device-change signals this close together are one change, ms. */
+export const DEVICE_CHANGE_MERGE_MS = 3000;
+
 /** Ticks (0.5 s each) between two looks at the device list. */
 export const DEVICE_POLL_TICKS = 4;
 
@@ -110,7 +113,14 @@ export class LatencyWatch {
   private readonly riseDb: number;
   private readonly riseS: number;
   private readonly quantum: number;
-  private readonly onDeviceChange = (): void => this.report({ timeS: this.ctx.currentTime, cause: 'device-change', action: 'freeze-adaptation', values: {} }, true);
+  private lastDeviceChangeMs = -Infinity;
+  /** One report per change: the browser's event and the list comparison may both see it, and one change can come as several events. */
+  private readonly onDeviceChange = (): void => {
+    const now = performance.now();
+    if (now - this.lastDeviceChangeMs < DEVICE_CHANGE_MERGE_MS) return;
+    this.lastDeviceChangeMs = now;
+    this.report({ timeS: this.ctx.currentTime, cause: 'device-change', action: 'freeze-adaptation', values: {} }, true);
+  };
 
   constructor(
     private readonly ctx: IAudioContext,
