@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { SKIP_CONTROL, ROOM_DEVICES, ROOM_RATE, Recorder, db, identifyInPanel, openLiveInRoom, panelStatus, rms, roomScenario, setControl, setNumber, useVirtualRoom } from './virtual-room.ts';
+import { ROOM_TEST_TIMEOUT_MS, SKIP_CONTROL, ROOM_DEVICES, ROOM_RATE, Recorder, db, identifyInPanel, openLiveInRoom, panelStatus, rms, roomScenario, setControl, setNumber, useVirtualRoom } from './virtual-room.ts';
 
 /**
  * Broadband FxNLMS through the virtual room: band-limited noise (250 … 1000 Hz) reaches the error mic
@@ -48,5 +48,5 @@ describe.skipIf(SKIP_CONTROL)('virtual room: broadband FxNLMS on band-limited no
     const on = rms(err, Math.round((tEnd - 3) * ROOM_RATE), Math.round((tEnd - 0.2) * ROOM_RATE));
     console.log(`virtual room, FxNLMS: round trip ${r.delayMs.toFixed(1)} ms, primary lag ${lagMs.toFixed(1)} ms, μ ${mu}, ${TAPS} taps; error mic by the recorder: off ${db(off * Math.SQRT2).toFixed(1)} dBFS, on ${db(on * Math.SQRT2).toFixed(1)} dBFS, attenuation ${db(off / on).toFixed(1)} dB; panel: ${status.slice(0, 600)}`);
     expect(db(off / on)).toBeGreaterThanOrEqual(10);
-  });
+  }, ROOM_TEST_TIMEOUT_MS);
 });

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { BS1770_INTERPOLATOR, TRUE_PEAK_MAX_GAIN } from '../../src/dsp/true-peak.ts';
-import { ROOM_DEVICES, Recorder, capDbfs, db, identifyInPanel, openLiveInRoom, panelStatus, peakAbs, roomScenario, setControl, setNumber, truePeak4x, useVirtualRoom } from './virtual-room.ts';
+import { ROOM_TEST_TIMEOUT_MS, ROOM_DEVICES, Recorder, capDbfs, db, identifyInPanel, openLiveInRoom, panelStatus, peakAbs, roomScenario, setControl, setNumber, truePeak4x, useVirtualRoom } from './virtual-room.ts';
 
 /**
  * The output cap, checked where the loudspeaker is: the independent recorder (parec on the room
@@ -40,7 +40,7 @@ describe('virtual room: the output cap at the loudspeaker', () => {
     // the check did drive the loudspeaker up to the cap (it ramps past it)
     expect(db(peak)).toBeGreaterThan(db(cap) - 0.5);
     expect(tp).toBeLessThanOrEqual(cap * TRUE_PEAK_MAX_GAIN * (1 + FLOAT_EPS));
-  });
+  }, ROOM_TEST_TIMEOUT_MS);
 
   it('should keep a diverging controller (model of the wrong sign) at or under the cap at the loudspeaker', async () => {
     const { page, server } = fx;
@@ -75,5 +75,5 @@ describe('virtual room: the output cap at the loudspeaker', () => {
     expect(tp).toBeLessThanOrEqual(cap * TRUE_PEAK_MAX_GAIN * (1 + FLOAT_EPS));
     // it did diverge: the output grew to within 6 dB of the cap before the limiter or the guard held it
     expect(db(peak)).toBeGreaterThan(db(cap) - 6);
-  });
+  }, ROOM_TEST_TIMEOUT_MS);
 });

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { realSpectrum } from '../../src/analysis/fft.ts';
-import { ROOM_DEVICES, ROOM_RATE, Recorder, bestLag, db, identifyInPanel, openLiveInRoom, rms, roomScenario, useVirtualRoom } from './virtual-room.ts';
+import { ROOM_TEST_TIMEOUT_MS, ROOM_DEVICES, ROOM_RATE, Recorder, bestLag, db, identifyInPanel, openLiveInRoom, rms, roomScenario, useVirtualRoom } from './virtual-room.ts';
 
 /**
  * Device choice and identification through the virtual room: the panel picks the room's reference
@@ -86,5 +86,5 @@ describe('virtual room: device choice and identification', () => {
     expect(Math.abs(modelGainDb - loopGainDb)).toBeLessThan(1);
     // the reference mic does not hear the loudspeaker in this room (no feedback path)
     expect(r.feedbackRatioDb).toBeLessThan(-30);
-  });
+  }, ROOM_TEST_TIMEOUT_MS);
 });

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { ROOM_DEVICES, ROOM_RATE, Recorder, capDbfs, db, identifyInPanel, openLiveInRoom, panelStatus, peakAbs, roomScenario, setControl, setNumber, useVirtualRoom } from './virtual-room.ts';
+import { ROOM_TEST_TIMEOUT_MS, ROOM_DEVICES, ROOM_RATE, Recorder, capDbfs, db, identifyInPanel, openLiveInRoom, panelStatus, peakAbs, roomScenario, setControl, setNumber, useVirtualRoom } from './virtual-room.ts';
 
 /**
  * A device change in the middle of control: the room's loudspeaker is unloaded and loaded again
@@ -55,5 +55,5 @@ describe('virtual room: loudspeaker removed and back mid-run', () => {
     expect(status).toMatch(/Adaptation frozen: the audio (devices|latency) changed/);
     expect(status).toMatch(/identify again/i);
     expect(status).toContain('audio devices changed');
-  });
+  }, ROOM_TEST_TIMEOUT_MS);
 });

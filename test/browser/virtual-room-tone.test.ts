@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { SKIP_CONTROL, ROOM_DEVICES, ROOM_RATE, Recorder, db, identifyInPanel, openLiveInRoom, panelStatus, rms, roomScenario, sampleDisplay, setControl, setNumber, toneAmplitude, useVirtualRoom } from './virtual-room.ts';
+import { ROOM_TEST_TIMEOUT_MS, SKIP_CONTROL, ROOM_DEVICES, ROOM_RATE, Recorder, db, identifyInPanel, openLiveInRoom, panelStatus, rms, roomScenario, sampleDisplay, setControl, setNumber, toneAmplitude, useVirtualRoom } from './virtual-room.ts';
 
 /**
  * The tone follower on a hum through the virtual room: 50 Hz with its 2nd and 3rd harmonics
@@ -62,5 +62,5 @@ describe.skipIf(SKIP_CONTROL)('virtual room: tone follower on a hum', () => {
     expect(attDb).toBeGreaterThanOrEqual(20);
     expect(finite.length).toBeGreaterThan(3);
     expect(Math.abs(panelDb - attDb)).toBeLessThanOrEqual(2);
-  });
+  }, ROOM_TEST_TIMEOUT_MS);
 });

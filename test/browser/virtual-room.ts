@@ -23,6 +23,9 @@ export { ROOM_DEVICES, ROOM_RATE, Recorder, RoomRenderer };
  * freezes. ANCBENCH_SKIP_ROOM_CONTROL=1 leaves those tests out, saying so; nothing is left out unless
  * asked (CI runs them all).
  */
+/** Per test: these run in real time (control for up to 25 s, identification, level checks) on shared machines. */
+export const ROOM_TEST_TIMEOUT_MS = 240_000;
+
 export const SKIP_CONTROL = process.env.ANCBENCH_SKIP_ROOM_CONTROL === '1';
 if (SKIP_CONTROL) console.warn('ANCBENCH_SKIP_ROOM_CONTROL=1: the attenuation tests through the virtual room are left out');
 
