@@ -154,6 +154,28 @@ export async function openLiveInRoom(page: Page, layout: 'two-devices' | 'stereo
   await page.locator('#start').click();
   await page.locator('#start', { hasText: 'Start' }).waitFor({ timeout: 10000 });
   await clickStart(page);
+  await waitForSteadyLatency(page);
+}
+
+/**
+ * Wait until the browser's reported output latency holds still: after the stream starts, Chromium's
+ * output buffer drains for tens of seconds on a busy machine (the round trip fell from 359 to 325 ms
+ * within 12 s here), and a model measured meanwhile is stale by the time control runs. Waits for two
+ * medians of 5 readings (0.5 s apart), 2.5 s apart, to agree within 3 ms; at most `maxMs`.
+ */
+export async function waitForSteadyLatency(page: Page, maxMs = 30000): Promise<number> {
+  const readings: number[] = [];
+  const med = (xs: number[]): number => [...xs].sort((a, b) => a - b)[xs.length >> 1]!;
+  const end = Date.now() + maxMs;
+  while (Date.now() < end) {
+    readings.push(await page.evaluate(() => {
+      const st = document.querySelector('ancb-app')!.session.stats();
+      return st ? (st.baseLatencyS || 0) + (st.outputLatencyS || 0) : NaN;
+    }));
+    if (readings.length >= 10 && Math.abs(med(readings.slice(-5)) - med(readings.slice(-10, -5))) < 0.003) break;
+    await page.waitForTimeout(500);
+  }
+  return med(readings.slice(-5)) * 1000;
 }
 
 /** Run the panel's identification; resolves with its result and the raw recording it analysed. */
