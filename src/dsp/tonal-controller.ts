@@ -177,6 +177,8 @@ export class TonalController implements Controller {
   readonly outputConstraint: OutputConstraint;
 
   private readonly model: Float64Array;
+  /** Index of the model's first non-zero tap: the responses skip the zeros before it (the bulk delay). */
+  private firstTap = 0;
   private readonly tracker: ToneTracker;
   private readonly trackerInput: Float32Array;
 
@@ -277,6 +279,7 @@ export class TonalController implements Controller {
     this.leakage = gamma;
     this.regularization = delta;
     this.model = Float64Array.from(s);
+    this.firstTap = firstNonZero(this.model);
     this.modelDelay = peakAt;
     this.stepSizeLimit = 4 * Math.sin(Math.PI / (2 * (2 * peakAt + 1)));
     this.tracker = new ToneTracker({ sampleRate: fs, minHz, maxHz, harmonicsCheck: hc });
@@ -308,6 +311,7 @@ export class TonalController implements Controller {
     const n = Math.min(taps.length, this.model.length);
     for (let i = 0; i < n; i++) this.model[i] = taps[i]!;
     for (let i = n; i < this.model.length; i++) this.model[i] = 0;
+    this.firstTap = firstNonZero(this.model);
     this.omegaEval = NaN;
   }
 
@@ -647,7 +651,7 @@ export class TonalController implements Controller {
     if (!(drift <= PHASE_TOLERANCE)) {
       this.omegaEval = this.omega;
       for (let k = 0; k < MAX_HARMONICS; k++) this.omegaK[k] = (k + 1) * this.omega;
-      pathResponsesAt(this.model, this.omegaK, MAX_HARMONICS, this.response);
+      pathResponsesAt(this.model, this.omegaK, MAX_HARMONICS, this.response, this.firstTap);
       for (let k = 0; k < MAX_HARMONICS; k++) {
         const sr = this.response[2 * k]!;
         const si = this.response[2 * k + 1]!;
@@ -674,4 +678,10 @@ export class TonalController implements Controller {
       this.effortScale[k] = mean / (this.regularization + this.sRe[k]! * this.sRe[k]! + this.sIm[k]! * this.sIm[k]!);
     }
   }
+}
+
+function firstNonZero(x: Float64Array): number {
+  let i = 0;
+  while (i < x.length - 1 && x[i] === 0) i++;
+  return i;
 }

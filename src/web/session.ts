@@ -355,7 +355,10 @@ export class Session {
     const got = this.message('identify-recording', (probe.durationS + probe.tailS) * 1000 + 10000);
     this.post({ type: 'identify', probe });
     const rec = (await got) as Extract<WorkletMessage, { type: 'identify-recording' }>;
-    return analysis().identify(rec, { firTaps });
+    // the response may come back at any time within the probe's tail: a large output buffer or a
+    // wireless loudspeaker makes the round trip longer than the analysis' default search (0.25 s)
+    const maxDelayS = Math.max(0.25, probe.tailS - (firTaps + 64) / rec.sampleRate);
+    return analysis().identify(rec, { firTaps, maxDelayS });
   }
 
   /** Load an identified model into the engine (a new engine: weights start from zero, control off). */
@@ -366,6 +369,7 @@ export class Session {
     if (!this.settings.adaptation) this.post({ type: 'set-adaptation', on: false });
     this.identified = result;
     this.stale = false;
+    this.watch?.rebase();
     this.lastModel = { taps: result.model, truePath: null, sampleRate: result.sampleRate, source: 'identified' };
     this.handlers.model(this.lastModel);
   }
