@@ -26,7 +26,7 @@
  *    every 6 samples (the sign pattern of the BS.1770-4 interpolator's phase: its 4×-oversampled
  *    peak reads +6.1 dB over the sample peak, the largest any ±1 sequence can give; calculated from
  *    the ITU-R BS.1770-4 Annex 2 coefficients as 20·log10 of the largest sum of |coefficients| over the
- *    four phases, see test/plant/level-cap-check.test.ts), a square wave
+ *    four phases, see test/engine/level-cap-check.test.ts), a square wave
  *    at fs/4 (+3.1 dB), steps of ±level, a burst of the Nyquist pattern after 40 ms of silence, and
  *    random ±level binary noise; once, at the start of the hold, NaN, +∞, −∞, ±10⁴·level and a
  *    denormal (1e−40).

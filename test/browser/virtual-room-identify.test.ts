@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { realSpectrum } from '../../src/analysis/fft.ts';
+import { realSpectrum } from '../../src/dsp/fft.ts';
 import { ROOM_TEST_TIMEOUT_MS, ROOM_DEVICES, ROOM_RATE, Recorder, bestLag, db, identifyInPanel, openLiveInRoom, rms, roomScenario, useVirtualRoom } from './virtual-room.ts';
 
 /**

@@ -13,7 +13,7 @@ import { BASE_ARGS, CHROMIUM } from './helpers.ts';
 import { buildRoom, ROOM_DEVICES, ROOM_RATE, Recorder, startSoundServer, type Room, type RoomOptions, type SoundServer } from '../../scripts/virtual-room-server.ts';
 import { RoomRenderer } from '../../scripts/virtual-room-render.ts';
 import { parseScenario, type Scenario } from '../../src/plant/scenario.ts';
-import { fftConvolve } from '../../src/analysis/fft.ts';
+import { fftConvolve } from '../../src/dsp/fft.ts';
 
 export { ROOM_DEVICES, ROOM_RATE, Recorder, RoomRenderer };
 
