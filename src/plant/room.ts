@@ -60,6 +60,9 @@ export interface RoomOptions extends RoomGeometry {
   highPassHz?: number;
 }
 
+/** Largest number of image sources a response may take (10 × the default bound: a few seconds per path). */
+export const MAX_ROOM_IMAGES = 2e7;
+
 /** Default cost bound: about 2e6 images × 32 taps, well under a second in Node. */
 export const DEFAULT_MAX_IMAGES = 2e6;
 
@@ -189,6 +192,18 @@ export function roomImpulseResponse(options: RoomOptions): Float64Array {
   const length = Math.ceil(maxTimeS * sampleRate);
   if (length > 2 ** 27) {
     throw new RangeError(`maxTimeS × sampleRate must be at most 2^27 samples, got ${length}`);
+  }
+  // Images fill space at one per room volume V: N(t) ≈ (4/3)·π·(c·t)³ / V (fewer with maxOrder, at most
+  // about (4/3)·(2·maxOrder + 1)³ / 8 … counted loosely as (2·maxOrder + 1)³). Refuse work that would run
+  // for minutes without a word, naming the estimate and the way out.
+  const volume = dims[0] * dims[1] * dims[2];
+  const bySphere = ((4 / 3) * Math.PI * Math.pow(speedOfSound * maxTimeS, 3)) / volume;
+  const estimate = maxOrder === Infinity ? bySphere : Math.min(bySphere, Math.pow(2 * maxOrder + 1, 3));
+  if (estimate > MAX_ROOM_IMAGES) {
+    throw new RangeError(
+      `maxTimeS: ${maxTimeS} s in a room of ${volume.toPrecision(3)} m³ reaches about ${estimate.toExponential(1)} image sources, ` +
+        `more than the ${MAX_ROOM_IMAGES.toExponential(0)} this tool computes (minutes of work per path); shorten maxTimeS or set maxOrder`,
+    );
   }
   const out = new Float64Array(length);
   const maxDistance = (length / sampleRate) * speedOfSound;

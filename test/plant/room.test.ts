@@ -178,3 +178,14 @@ describe('roomImpulseResponse', () => {
     expect(ir.length).toBe(Math.ceil(sabineT60(room) * 1000));
   });
 });
+
+describe('roomImpulseResponse', () => {
+  describe('with a response length that needs more image sources than the tool computes', () => {
+    it('should refuse it at once, naming the estimate and the way out', () => {
+      // N(t) ≈ (4/3)·π·(c·t)³ / V image sources (one per room volume; Allen & Berkley, JASA 65(4), 1979, from memory):
+      // 10 s in a 2×2×2 m room: (4/3)·π·3430³ / 8 ≈ 2.1e10 (calculated)
+      expect(() => roomImpulseResponse({ dimensionsM: [2, 2, 2], absorption: 0.2, source: [0.5, 0.5, 0.5], receiver: [1.5, 1.5, 1.5], sampleRate: 8000, maxTimeS: 10 }))
+        .toThrow(/maxTimeS: 10 s in a room of 8\.00 m³ reaches about 2\.1e\+10 image sources, more than the 2e\+7 .*shorten maxTimeS or set maxOrder/);
+    });
+  });
+});
