@@ -725,7 +725,10 @@ export class AncbApp extends LitElement {
           const lo = Math.max(1, Math.ceil(20 / s.resolutionHz));
           const f = Array.from(s.frequencyHz.subarray(lo));
           const nul = (a: Float64Array): (number | null)[] => Array.from(a.subarray(lo), (v) => (Number.isFinite(v) ? v : null));
-          this.$<AncbPlot>('#plot-spectrum')?.setData([f, nul(s.offDb), nul(s.onDb)]);
+          const plot = this.$<AncbPlot>('#plot-spectrum');
+          plot?.setData([f, nul(s.offDb), nul(s.onDb)]);
+          plot?.setLegendNote(0, s.offSeconds > 0 ? null : 'none recorded yet');
+          plot?.setLegendNote(1, s.onSeconds > 0 ? null : 'none recorded yet');
           const gate = this.attenuationGate();
           const off = s.offSeconds > 0 ? { frequencyHz: s.frequencyHz, densityDb: s.offDb, resolutionHz: s.resolutionHz } : null;
           const on = s.onSeconds > 0 ? { frequencyHz: s.frequencyHz, densityDb: s.onDb, resolutionHz: s.resolutionHz } : null;

@@ -139,6 +139,31 @@ export class AncbPlot extends LitElement {
     else this.chart.setData(data, true);
   }
 
+  private readonly legendNotes = new Map<number, string>();
+
+  /**
+   * A note after a series' legend label (null removes it): a series with no data says so, rather than
+   * listing a curve that is not drawn (the live spectrum before any control-off audio exists).
+   */
+  setLegendNote(series: number, note: string | null): void {
+    if (note === null) this.legendNotes.delete(series);
+    else this.legendNotes.set(series, note);
+    this.applyLegendNotes();
+  }
+
+  private applyLegendNotes(): void {
+    const cfg = this.config;
+    const rows = this.chart?.root.querySelectorAll('.u-legend .u-series');
+    if (!cfg || !rows) return;
+    cfg.series.forEach((sr, i) => {
+      const label = rows[i + 1]?.querySelector('.u-label');
+      if (!label) return;
+      const note = this.legendNotes.get(i);
+      const text = note ? `${sr.label} (${note})` : sr.label;
+      if (label.textContent !== text) label.textContent = text;
+    });
+  }
+
   /** Chart size: the box's width, a fixed plotting height (the legend adds below it). */
   private size(): { width: number; height: number } {
     const b = this.box;
@@ -196,6 +221,7 @@ export class AncbPlot extends LitElement {
       ],
     };
     this.chart = new uPlot(opts, this.data, box);
+    this.applyLegendNotes();
   }
 
   protected override render(): unknown {

@@ -65,6 +65,14 @@ describe('live microphones (Chromium fake capture device)', () => {
     expect(Math.abs(median(err) - expectedDbfs(CHANNELS[1]!.amplitude))).toBeLessThanOrEqual(1);
     // two distinct channels arrived (the stereo check raised no warning)
     expect(await page.locator('.banner').count()).toBe(0);
+    // control has not run: the spectrum legend says the control-on curve has no data rather than listing it
+    const legend = () =>
+      page.evaluate(() => {
+        const plot = document.querySelector('ancb-app')!.shadowRoot!.querySelector('#plot-spectrum');
+        return Array.from(plot?.shadowRoot?.querySelectorAll('.u-legend .u-label') ?? [], (e) => e.textContent ?? '');
+      });
+    await expect.poll(legend, { timeout: 10_000 }).toContain('control on (none recorded yet)');
+    expect(await legend()).toContain('control off');
   });
 
   it('should run the probe, refuse a model the error mic did not hear, and load it only when asked', async () => {
