@@ -18,7 +18,7 @@ import { levelCapConfigFromScenario, limitsTruePeak, runLevelCapCheck, TRUE_PEAK
 import type { Scenario } from '../plant/scenario.ts';
 import { simulate } from '../plant/simulate.ts';
 import type { WavTable } from '../plant/sources.ts';
-import { safeJson, stamp, UsageError, type Stamp, numberFlag, outFlag, parseCommandArgs } from './common.ts';
+import { fmtNum, safeJson, stamp, UsageError, type Stamp, numberFlag, outFlag, parseCommandArgs } from './common.ts';
 import { progressBar } from './progress.ts';
 
 export const CHECK_LIMITS_USAGE = `usage: ancbench check-limits <scenario.json> [--json] [--out DIR]
@@ -169,23 +169,25 @@ export function buildReport(path: string, sc: Scenario, r: LevelCapResult, cl: C
 }
 
 export function readableSummary(rep: CheckLimitsReport): string {
+  // figures with a true minus sign, like every command's text output; n/a where there is none
+  const num = (v: number | null | undefined, digits = 2): string => (v === null || v === undefined || !Number.isFinite(v) ? 'n/a' : fmtNum(v, digits));
   const c = rep.ceilingDbfs;
   const x = rep.check;
   const lines = [
     `scenario      ${rep.scenario}${rep.name ? `  (${rep.name})` : ''}`,
     `verdict       ${rep.verdict}`,
-    `cap           ${c.toFixed(2)} dBFS ${limitsTruePeak(rep.limiterMode) ? 'sample peak and 4x true peak' : 'sample peak'}${rep.ceiling.spl ? ` (stricter of ${rep.ceiling.dbfsCeiling} dBFS and ${rep.ceiling.spl.peakCeilingDbSpl} dB SPL peak: ${rep.ceiling.limitedBy} rule)` : ''}`,
-    `limiter       ${rep.limiterMode}, ${rep.latencySamples} sample${rep.latencySamples === 1 ? '' : 's'} (${fixed((1000 * rep.latencySamples) / x.sampleRate, 3)} ms) of added latency`,
-    `test signal   ${x.segments.filter((s) => s.kind !== 'gap').map((s) => s.kind).join(', ')}: ${x.startDbfs.toFixed(1)} → ${x.topDbfs.toFixed(1)} dBFS, ${x.durationS.toFixed(2)} s`,
-    `sample peak   ${fixed(rep.maxSamplePeakDbfs, 3)} dBFS (${fixed(rep.maxSamplePeakDbfs - c, 3)} dB from the cap), ${rep.samplesOverCeiling} samples over`,
-    `true peak     ${fixed(rep.maxTruePeakDbtp)} dBTP (${fixed(rep.maxTruePeakDbtp - c)} dB from the cap${rep.truePeakToleranceDb !== null ? `, limited to +${rep.truePeakToleranceDb} dB` : '; reported, not limited, in this mode'})`,
-    `gain reduct.  up to ${fixed(rep.maxGainReductionDb, 1)} dB; ${rep.nonFiniteOutputSamples} non-finite outputs (${x.nonFiniteInputSamples} non-finite test samples silenced)`,
+    `cap           ${num(c, 2)} dBFS ${limitsTruePeak(rep.limiterMode) ? 'sample peak and 4x true peak' : 'sample peak'}${rep.ceiling.spl ? ` (stricter of ${rep.ceiling.dbfsCeiling} dBFS and ${rep.ceiling.spl.peakCeilingDbSpl} dB SPL peak: ${rep.ceiling.limitedBy} rule)` : ''}`,
+    `limiter       ${rep.limiterMode}, ${rep.latencySamples} sample${rep.latencySamples === 1 ? '' : 's'} (${num((1000 * rep.latencySamples) / x.sampleRate, 3)} ms) of added latency`,
+    `test signal   ${x.segments.filter((s) => s.kind !== 'gap').map((s) => s.kind).join(', ')}: ${num(x.startDbfs, 1)} → ${num(x.topDbfs, 1)} dBFS, ${x.durationS.toFixed(2)} s`,
+    `sample peak   ${num(rep.maxSamplePeakDbfs, 3)} dBFS (${num(rep.maxSamplePeakDbfs - c, 3)} dB from the cap), ${rep.samplesOverCeiling} samples over`,
+    `true peak     ${num(rep.maxTruePeakDbtp)} dBTP (${num(rep.maxTruePeakDbtp - c)} dB from the cap${rep.truePeakToleranceDb !== null ? `, limited to +${rep.truePeakToleranceDb} dB` : '; reported, not limited, in this mode'})`,
+    `gain reduct.  up to ${num(rep.maxGainReductionDb, 1)} dB; ${rep.nonFiniteOutputSamples} non-finite outputs (${x.nonFiniteInputSamples} non-finite test samples silenced)`,
   ];
-  if (x.maxPeakDbSplBound !== null) lines.push(`peak SPL      at most ${fixed(x.maxPeakDbSplBound, 1)} dB SPL at the listening position`);
+  if (x.maxPeakDbSplBound !== null) lines.push(`peak SPL      at most ${num(x.maxPeakDbSplBound, 1)} dB SPL at the listening position`);
   const cl = rep.closedLoop;
   if (cl) {
     lines.push(
-      `closed loop   peak ${fixed(cl.peakOutputDbfs, 2)} dBFS, true peak ${fixed(cl.truePeakDbtp, 2)} dBTP over ${cl.durationS.toFixed(2)} s: ${cl.withinCap ? 'within the cap' : 'CAP EXCEEDED'}${cl.diverged ? ' (the guard acted)' : ''}`,
+      `closed loop   peak ${num(cl.peakOutputDbfs, 2)} dBFS, true peak ${num(cl.truePeakDbtp, 2)} dBTP over ${cl.durationS.toFixed(2)} s: ${cl.withinCap ? 'within the cap' : 'CAP EXCEEDED'}${cl.diverged ? ' (the guard acted)' : ''}`,
     );
   }
   const shown = [...rep.events.map((e) => ({ e, where: 'check' })), ...(cl?.events ?? []).map((e) => ({ e, where: 'loop ' }))];

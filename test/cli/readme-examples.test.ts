@@ -56,7 +56,7 @@ describe('README examples', () => {
 
   it('should find the sample outputs it compares', () => {
     const samples = readmeSamples();
-    expect([...samples.keys()]).toEqual(['simulate demo/scenarios/workshop-extractor-hum.json', 'check-limits demo/scenarios/transformer-hum-true-peak.json --out out/limits']);
+    expect([...samples.keys()]).toEqual(['simulate demo/scenarios/workshop-extractor-hum.json', 'check-limits demo/scenarios/pump-harmonics.json --out out/limits']);
   });
 
   it('should run every documented command successfully, in order, printing the sample outputs shown', async () => {
