@@ -28,6 +28,9 @@ import { receive, applyEngineMessage, copyWeights, fillEngineExtras, inputNonFin
  * Bundle rules (standardized-audio-context wraps this file and evaluates it twice): imports first,
  * no exports, no top-level side effects besides registerProcessor.
  */
+/** How long the input may be absent at start before 'input-missing' is reported, s. */
+const START_GRACE_S = 0.05;
+
 class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
   static get parameterDescriptors(): typeof LIVE_PARAMETERS {
     return LIVE_PARAMETERS;
@@ -35,7 +38,8 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
 
   private readonly seq: LiveSequence;
   /** Last value seen of each AudioParam (stepSize, leakage, ceilingDbfs): only a change is applied. */
-  private readonly lastParam = new Float64Array(LIVE_PARAMETERS.length);
+  // float32, as AudioParam values arrive: a default of 0.01 must compare equal to itself
+  private readonly lastParam = new Float32Array(LIVE_PARAMETERS.length);
   private readonly opts: LiveProcessorOptions;
   private readonly telemetry: Telemetry;
   private readonly chunks: ChunkSender;
@@ -51,6 +55,10 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
   private lastChannels = -1;
   /** An 'input-missing' was reported and the input has not come back yet. */
   private inputLost = false;
+  /** Some input has arrived since the processor started. */
+  private inputSeen = false;
+  /** Samples without any input before the first arrived. */
+  private silentAtStart = 0;
   private warnedChannels = false;
 
   constructor(options: WorkletNodeOptions) {
@@ -162,8 +170,12 @@ class LiveProcessor extends AudioWorkletProcessor implements LiveSequenceHost {
     const channels = cond.begin(input);
     const timeS = seq.clockS;
     // the first quanta may arrive before the microphones are connected: that is not a loss of input,
-    // so 'input-missing' needs input seen before, and 'input-restored' follows only a reported loss
-    if (channels === 0 && this.lastChannels > 0) {
+    // so 'input-missing' needs input seen before (or none at all for the first START_GRACE_S), and
+    // 'input-restored' follows only a reported loss
+    if (channels === 0 && this.lastChannels <= 0 && !this.inputLost && !this.inputSeen) this.silentAtStart += n;
+    if (channels > 0) this.inputSeen = true;
+    const neverArrived = !this.inputSeen && !this.inputLost && this.silentAtStart >= START_GRACE_S * sampleRate;
+    if (channels === 0 && (this.lastChannels > 0 || neverArrived)) {
       tel.event(timeS, 'input-missing', 'none', 0, NaN, NaN, false);
       this.inputLost = true;
     }

@@ -44,5 +44,5 @@ export interface Controller {
    */
   setOutputCap?(cap: number): void;
   /** The controller's output constraint (method, level, whether it acts now). */
-  readonly outputConstraint?: OutputConstraint;
+  readonly outputConstraint?: OutputConstraint | undefined;
 }

@@ -21,7 +21,9 @@ describe('recording in the panel', () => {
     await page.locator('ancb-recording input[type="number"]').fill('2');
     await page.locator('ancb-recording input[type="number"]').dispatchEvent('change');
     await page.locator('#record').click();
-    await page.locator('#control[aria-pressed="true"]').waitFor({ timeout: 10000 });
+    // Start runs with control on; a recording begins with its control-off stretch, then turns control on
+    await page.locator('#control', { hasText: 'Turn control on' }).waitFor({ timeout: 10000 });
+    await page.locator('#control', { hasText: 'Turn control off' }).waitFor({ timeout: 10000 });
     await page.waitForTimeout(2500);
     await page.locator('#record-stop').click();
     const link = page.locator('#record-download');

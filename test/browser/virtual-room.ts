@@ -215,9 +215,11 @@ export function panelStatus(page: Page): Promise<string> {
 }
 
 export async function setControl(page: Page, on: boolean): Promise<void> {
-  const pressed = (await page.locator('#control').getAttribute('aria-pressed')) === 'true';
-  if (pressed !== on) await page.locator('#control').click();
-  await page.locator(`#control[aria-pressed="${on}"]`).waitFor({ timeout: 5000 });
+  // the button says what it will do: "Turn control off" while control is on (the state chip beside it
+  // may also show what the guard did)
+  const isOn = async (): Promise<boolean> => ((await page.locator('#control').textContent()) ?? '').includes('Turn control off');
+  if ((await isOn()) !== on) await page.locator('#control').click();
+  await page.locator('#control', { hasText: on ? 'Turn control off' : 'Turn control on' }).waitFor({ timeout: 5000 });
 }
 
 /** Type a value into one of the panel's number inputs and commit it (the change event). */
