@@ -1,6 +1,6 @@
 import type { Controller } from './controller.ts';
 import { copyPrefix, replacePadded } from './copy.ts';
-import { OutputConstraint, PENALTY, WEIGHT_SCALE, validateOutputConstraint, type OutputConstraintSettings } from './output-constraint.ts';
+import { OutputConstraint, PENALTY, validateOutputConstraint, type OutputConstraintSettings } from './output-constraint.ts';
 
 /**
  * Filtered-reference LMS (FxLMS) feedforward controller: one reference, one error microphone.
@@ -101,13 +101,6 @@ export class FxlmsController implements Controller {
 
   setOutputCap(cap: number): void {
     this.outputConstraint.setCap(cap);
-  }
-
-  /** Scale every weight by the output constraint's `weightScale` (read here: no double crosses a call). */
-  private applyWeightScale(): void {
-    const g = this.outputConstraint.state[WEIGHT_SCALE]!;
-    const w = this.w;
-    for (let i = 0; i < w.length; i++) w[i] = w[i]! * g;
   }
 
   reset(): void {
@@ -272,7 +265,7 @@ export class FxlmsController implements Controller {
     this.filled = filled;
     const oc = this.outputConstraint;
     oc.afterBlock(out, n);
-    if (oc.state[WEIGHT_SCALE]! < 1) this.applyWeightScale();
+    oc.scaleWeights(this.w);
   }
 }
 

@@ -149,6 +149,16 @@ export class OutputConstraint {
    * (A field rather than a return value: a double returned from a call the JIT does not inline is
    * boxed, a few bytes of garbage per block.)
    */
+  /**
+   * Scale a controller's weights (time taps or spectra) by the factor the last block asked for; nothing
+   * when it asked for none. Reads the factor here, so no double crosses a call.
+   */
+  scaleWeights(w: Float32Array | Float64Array): void {
+    const g = this.state[WEIGHT_SCALE]!;
+    if (!(g < 1)) return;
+    for (let i = 0; i < w.length; i++) w[i] = w[i]! * g;
+  }
+
   afterBlock(out: Float32Array, n: number): void {
     let peak = 0;
     for (let i = 0; i < n; i++) {

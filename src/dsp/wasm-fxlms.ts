@@ -2,7 +2,7 @@ import type { Controller } from './controller.ts';
 import { copyPrefix, replacePadded } from './copy.ts';
 import { FXNLMS_DEFAULT_REGULARIZATION, validateFxlmsConfig, type FxlmsConfig, validateSecondaryPathModel } from './fxlms.ts';
 import { instantiateFxlmsKernels, type FxlmsKernelExports } from './wasm-module.ts';
-import { OutputConstraint, PENALTY, WEIGHT_SCALE } from './output-constraint.ts';
+import { OutputConstraint, PENALTY } from './output-constraint.ts';
 
 /**
  * Time-domain FxLMS / FxNLMS whose whole block loop runs in the WebAssembly SIMD kernel
@@ -80,13 +80,6 @@ export class WasmFxlmsController implements Controller {
 
   setOutputCap(cap: number): void {
     this.outputConstraint.setCap(cap);
-  }
-
-  /** Scale every weight by the output constraint's `weightScale` (read here: no double crosses a call). */
-  private applyWeightScale(): void {
-    const g = this.outputConstraint.state[WEIGHT_SCALE]!;
-    const w = this.w;
-    for (let i = 0; i < w.length; i++) w[i] = w[i]! * g;
   }
 
   /** Taps after padding to a multiple of 16 (the kernel's loop length). */
@@ -175,6 +168,6 @@ export class WasmFxlmsController implements Controller {
     for (let i = 0; i < n; i++) out[i] = ob[i]!;
     const oc = this.outputConstraint;
     oc.afterBlock(out, n);
-    if (oc.state[WEIGHT_SCALE]! < 1) this.applyWeightScale();
+    oc.scaleWeights(this.w);
   }
 }

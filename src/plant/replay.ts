@@ -24,7 +24,6 @@ import { isAmplified, OutputLimitMeter } from './output-limit.ts';
 import { z } from 'zod';
 import { OUTPUT_STAGE_SETTINGS, LIMITER_SETTINGS, type SettingsObject } from '../engine/settings.ts';
 import { Engine, DEFAULT_CEILING_DBFS, type EngineConfig } from '../engine/engine.ts';
-import { OutputLimiter } from '../dsp/limiter.ts';
 import { drainEvents, type EngineEvent } from '../engine/events.ts';
 import { convergenceMetrics } from '../analysis/convergence.ts';
 import { wienerBound } from '../analysis/wiener.ts';
@@ -34,7 +33,7 @@ import { describeImplementation } from '../engine/implementation.ts';
 import { controllerSchema, schemaFromTable, type ControllerSpec } from './scenario.ts';
 import { PathFilter } from './path-filter.ts';
 import { imperfectModel } from './secondary-model.ts';
-import { convolved, engineControllerConfig, wienerOutputPeak, withHighPass, HOP_S, type SimulationResult, type SimulationSignals } from './simulate.ts';
+import { engineControllerConfig, outputStageDrive, wienerOutputPeak, HOP_S, type SimulationResult, type SimulationSignals } from './simulate.ts';
 
 /** Controller and output-stage settings in the scenario's vocabulary. */
 export interface ReplaySettings {
@@ -154,11 +153,7 @@ export function replay(input: ReplayInput, opts: ReplayOptions = {}): Simulation
   // As in the simulator: the controller drives the output stage and then the path, so its model of the
   // path includes the high-pass and the limiter's response: look-ahead delay and true-peak filter
   // (built from the model, imperfections applied).
-  const stage = new OutputLimiter({ sampleRate: fs, maxBlockSize: B, ...limiterSettings }).responseTaps();
-  const drive = (path: Float64Array): Float64Array => {
-    const a = hp > 0 ? withHighPass(path, hp, fs) : path;
-    return stage.length > 1 ? convolved(a, stage) : a;
-  };
+  const drive = outputStageDrive(limiterSettings, hp, fs, B);
   const withStage = drive(Float64Array.from(input.model));
   const model = imperfectModel(withStage, settings.controller);
   const truthDriven = input.truePath ? drive(truth) : withStage;

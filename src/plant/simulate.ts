@@ -8,7 +8,7 @@
  * control on. Microphones clip at ±1 (full scale), as a converter would.
  */
 import { engineSettings } from '../engine/settings.ts';
-import { Engine, DEFAULT_CEILING_DBFS, type EngineConfig, type EngineMode } from '../engine/engine.ts';
+import { Engine, DEFAULT_CEILING_DBFS, type EngineConfig, type EngineMode, type LimiterSettings } from '../engine/engine.ts';
 import { HighPass } from '../dsp/highpass.ts';
 import { OutputLimiter } from '../dsp/limiter.ts';
 import { PolynomialNonlinearity } from './nonlinearity.ts';
@@ -270,16 +270,10 @@ export class PlantLoop {
     // identification would see it, and the model built from the truth includes it.
     const hp = sc.highPassHz ?? 0;
     const limiterSettings = { ...(sc.limiter ?? {}), ceilingDbfs: scenarioCeilingDbfs(sc, DEFAULT_CEILING_DBFS) };
-    // the limiter's look-ahead delay and true-peak filter shape everything the controller plays: they are part of the secondary path
-    const stage = new OutputLimiter({ sampleRate: fs, maxBlockSize: B, ...limiterSettings }).responseTaps();
-    const acoustic = hp > 0 ? withHighPass(trueSecondaryPath(sc), hp, fs) : trueSecondaryPath(sc);
-    this.trueSecondaryPath = stage.length > 1 ? convolved(acoustic, stage) : acoustic;
+    const asDriven = outputStageDrive(limiterSettings, hp, fs, B);
+    this.trueSecondaryPath = asDriven(trueSecondaryPath(sc));
     this.secondaryPathModel = opts.secondaryPathModel ?? imperfectModel(this.trueSecondaryPath, sc.controller);
     // ---- changing plants (issue 14): feedback model, path changes ----
-    const asDriven = (r: Float64Array): Float64Array => {
-      const a = hp > 0 ? withHighPass(r, hp, fs) : r;
-      return stage.length > 1 ? convolved(a, stage) : a;
-    };
     this.trueFeedbackPath = sc.paths.feedback ? asDriven(denseResponse(pathResponse(sc.paths.feedback, fs))) : null;
     this.feedbackPathModel = feedbackModelFor(sc, opts.feedbackPathModel, () => this.trueFeedbackPath);
     this.secondaryPaths.push(this.trueSecondaryPath);
@@ -466,7 +460,20 @@ export function wienerOutputPeak(x: Float32Array, w: Float64Array, skip: number)
   return peak;
 }
 /** Full linear convolution of a path with the output stage's short response. */
-export function convolved(x: Float64Array, h: Float64Array): Float64Array {
+/**
+ * A loudspeaker path as the controller drives it: through the engine's output stage first (speaker
+ * high-pass, then the limiter's look-ahead delay and true-peak filter), so it is the path an
+ * identification measures and the one the controller's model must hold. Shared by the simulator and replay.
+ */
+export function outputStageDrive(limiter: LimiterSettings & { ceilingDbfs: number }, highPassHz: number, fs: number, blockSize: number): (path: Float64Array) => Float64Array {
+  const stage = new OutputLimiter({ sampleRate: fs, maxBlockSize: blockSize, ...limiter }).responseTaps();
+  return (path) => {
+    const a = highPassHz > 0 ? withHighPass(path, highPassHz, fs) : path;
+    return stage.length > 1 ? convolved(a, stage) : a;
+  };
+}
+
+function convolved(x: Float64Array, h: Float64Array): Float64Array {
   const out = new Float64Array(x.length + h.length - 1);
   for (let k = 0; k < h.length; k++) {
     const hk = h[k]!;

@@ -15,6 +15,7 @@
 import { checkControllerSettings } from '../engine/settings.ts';
 import type { ControllerConfig } from '../engine/controller-factory.ts';
 import type { EngineMode } from '../engine/engine.ts';
+import type { TestSignalSettings } from '../engine/level-cap-check.ts';
 import { parseRecordMessage, type RecordChunkMessage, type RecordControlMessage } from './record-ring.ts';
 import {
   EVENT_ACTIONS,
@@ -452,16 +453,8 @@ export interface LevelCheckRequest {
   outputCalibration?: CalibrationReading[];
   peakCeilingDbSpl?: number;
   micCalibration?: MicCalibrationData;
-  signal: {
-    startDbfs?: number;
-    overDb?: number;
-    rampS?: number;
-    holdS?: number;
-    gapS?: number;
-    toneHz?: number;
-    kinds?: ('tone' | 'noise' | 'adversarial')[];
-    seed?: number;
-  };
+  /** The test signal: the check's own settings (ranges checked by the check, its messages name each field). */
+  signal: TestSignalSettings;
 }
 
 /** What the live processor itself saw of the samples it handed to the audio output during a check. */
