@@ -1,3 +1,4 @@
+import { checkSetting, LIMITER_SETTINGS, OUTPUT_STAGE_SETTINGS } from './settings.ts';
 import type { Controller } from '../dsp/controller.ts';
 import { GainRamp } from '../dsp/gain-ramp.ts';
 import { PlantTrackingController } from '../dsp/plant-tracking.ts';
@@ -76,9 +77,9 @@ export interface EngineConfig {
   eventCapacity?: number;
 }
 
-export const DEFAULT_CEILING_DBFS = -6;
-export const DEFAULT_RAMP_MS = 50;
-export const DEFAULT_HIGHPASS_HZ = 20;
+export const DEFAULT_CEILING_DBFS: number = LIMITER_SETTINGS.ceilingDbfs.default;
+export const DEFAULT_RAMP_MS: number = OUTPUT_STAGE_SETTINGS.rampMs.default;
+export const DEFAULT_HIGHPASS_HZ: number = OUTPUT_STAGE_SETTINGS.highPassHz.default;
 /** Default crossfade between controllers, ms. */
 export const DEFAULT_CROSSFADE_MS = 200;
 
@@ -184,9 +185,9 @@ export class Engine {
     if (!Number.isInteger(maxBlockSize) || maxBlockSize < 1 || maxBlockSize > 16384) throw new RangeError(`maxBlockSize must be an integer from 1 to 16384, got ${maxBlockSize}`);
     const lim = config.limiter ?? {};
     const ceilingDbfs = lim.ceilingDbfs ?? config.ceilingDbfs ?? DEFAULT_CEILING_DBFS;
-    if (!(ceilingDbfs <= 0 && ceilingDbfs >= -120)) throw new RangeError(`ceilingDbfs must be from −120 to 0 dBFS, got ${ceilingDbfs}`);
+    checkSetting(LIMITER_SETTINGS, 'ceilingDbfs', ceilingDbfs);
     const rampMs = config.rampMs ?? DEFAULT_RAMP_MS;
-    if (!(rampMs >= 0 && rampMs <= 5000)) throw new RangeError(`rampMs must be from 0 to 5000 ms, got ${rampMs}`);
+    checkSetting(OUTPUT_STAGE_SETTINGS, 'rampMs', rampMs);
     const hp = config.highPassHz ?? DEFAULT_HIGHPASS_HZ;
     if (!(hp >= 0 && hp < sampleRate / 4)) throw new RangeError(`highPassHz must be from 0 to ${sampleRate / 4} Hz, got ${hp}`);
     this.sampleRate = sampleRate;

@@ -258,6 +258,13 @@ export function settingsProblems(table: SettingsTable, value: unknown, prefix = 
   return problems;
 }
 
+/** One setting's value, or a RangeError in the common format (field, allowed range, value). */
+export function checkSetting<T>(table: SettingsTable, field: string, value: T, prefix = ''): T {
+  const spec = table[field];
+  if (spec && !fitsSetting(spec, value)) throw new RangeError(rangeMessage(`${prefix}${field}`, describeRange(spec), value));
+  return value;
+}
+
 /** Throw a RangeError naming every problem of a controller configuration (the engine's and the worklet's check). */
 export function checkControllerSettings(value: unknown, prefix = 'controller.'): void {
   if (typeof value !== 'object' || value === null || Array.isArray(value)) throw new RangeError(rangeMessage(prefix.slice(0, -1), 'an object of controller settings', value));

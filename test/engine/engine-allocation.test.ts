@@ -63,7 +63,7 @@ describe('Engine', () => {
       const model = new Float32Array(4);
       expect(() => new Engine({ sampleRate: 1000, maxBlockSize: 128, controller: { algorithm: 'fxlms', taps: 8, stepSize: 0.1 }, secondaryPathModel: model })).toThrow(/sampleRate must be 8000 … 192000 Hz, got 1000/);
       expect(() => new Engine({ sampleRate: 48000, maxBlockSize: 128, controller: { algorithm: 'fxlms', taps: 0, stepSize: 0.1 }, secondaryPathModel: model })).toThrow(/controller\.taps: must be an integer ≥ 1 and ≤ 65536 \(taps\), got 0/);
-      expect(() => new Engine({ sampleRate: 48000, maxBlockSize: 128, controller: { algorithm: 'fxlms', taps: 8, stepSize: 0.1 }, secondaryPathModel: model, ceilingDbfs: 3 })).toThrow(/ceilingDbfs must be from −120 to 0 dBFS, got 3/);
+      expect(() => new Engine({ sampleRate: 48000, maxBlockSize: 128, controller: { algorithm: 'fxlms', taps: 8, stepSize: 0.1 }, secondaryPathModel: model, ceilingDbfs: 3 })).toThrow(/ceilingDbfs: must be a number ≥ -120 and ≤ 0 \(dBFS\), got 3/);
     });
   });
 
