@@ -101,7 +101,7 @@ export function readableSummary(s: SimulateSummary): string {
     `attenuation   ${fmtDb(s.attenuationDb)}  (error mic, last 25 % of the run, unweighted)`,
     `error level   ${s.errorOffDbfs === null ? 'n/a' : fmtNum(s.errorOffDbfs)} dBFS off → ${s.errorOnDbfs === null ? 'n/a' : fmtNum(s.errorOnDbfs)} dBFS on`,
     `convergence   ${s.convergenceS === null ? 'not reached' : `${s.convergenceS.toFixed(2)} s`}`,
-    `Wiener bound  ${fmtDb(s.wienerBoundDb)}${s.wienerBoundDb === null ? (s.algorithm === 'tonal' ? '  (narrowband controller: see the per-tone figures)' : '') : s.wienerBoundIsBound ? '' : '  (not a bound: the scenario is not stationary)'}`,
+    `Wiener bound  ${fmtDb(s.wienerBoundDb)}${s.wienerBoundDb === null ? (s.algorithm === 'tonal' ? '  (narrowband controller: see the per-tone figures)' : '') : s.wienerBoundIsBound ? '' : '  (not a bound: the noise or the plant changes during the run)'}`,
     `peak output   ${s.peakOutputDbfs === null ? 'n/a' : `${fmtNum(s.peakOutputDbfs)} dBFS`}  (ceiling ${fmtNum(s.outputCeilingDbfs, Number.isInteger(s.outputCeilingDbfs) ? 0 : 2)} dBFS)`,
     `output limit  ${describeOutputLimit(s.outputLimit)}`,
     ...(s.amplified ? ['amplified     YES: control on is more than 1 dB louder than control off (overall or at a tone)'] : []),

@@ -497,7 +497,7 @@ export function renderSimulationReport(
           ['attenuation', `${fmt(s.attenuationDb, 1, 'dB')} (error mic, last 25 % of the run, unweighted)`],
           ['error level', `${fmt(s.errorOffDbfs, 1)} dBFS off → ${fmt(s.errorOnDbfs, 1)} dBFS on`],
           ['convergence', s.convergenceS === null ? 'not reached' : `${s.convergenceS.toFixed(2)} s`],
-          ['Wiener bound', `${fmt(s.wienerBoundDb, 1, 'dB')}${s.wienerBoundIsBound ? '' : ' (not a bound: the scenario is not stationary)'}`],
+          ['Wiener bound', `${fmt(s.wienerBoundDb, 1, 'dB')}${s.wienerBoundIsBound ? '' : ' (not a bound: the noise or the plant changes during the run)'}`],
           ...(analysis
             ? ([
                 ['coherence bound', `${fmt(analysis.coherenceBoundDb, 1, 'dB')} over ${analysis.bandRangeHz[0].toFixed(0)}–${analysis.bandRangeHz[1].toFixed(0)} Hz`],

@@ -657,6 +657,9 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
       'More taps or less reference noise bring the two together';
   }
   if (!stationary && sc.controller.algorithm !== 'tonal') notes.wienerBound = 'the scenario is not stationary (drifting tone or recorded source): the Wiener figure is the best fixed filter over the run, not a bound on an adaptive one';
+  // a secondary path that changes mid-run: the Wiener figure is solved for the first path only
+  const plantChanges = (sc.faults ?? []).some((f) => f.kind === 'secondary-path-change');
+  if (plantChanges && sc.controller.algorithm !== 'tonal') notes.wienerBound = 'the secondary path changes during the run: the Wiener figure is the best fixed filter for the first path, not a bound on the run';
   if (clipRef || clipErr) notes.clipping = `microphone signals clipped at full scale: ${clipRef} reference and ${clipErr} error samples`;
   let peakOutputDbfs: number | null = amplitudeToDb(peakOut);
   if (!Number.isFinite(peakOutputDbfs)) {
@@ -709,7 +712,7 @@ export function simulate(sc: Scenario, opts: SimulateOptions = {}): SimulationRe
     attenuationDb,
     convergenceS: conv.convergenceS,
     wienerBoundDb,
-    wienerBoundIsBound: stationary,
+    wienerBoundIsBound: stationary && !plantChanges,
     peakOutputDbfs,
     outputLimit,
     amplified,

@@ -116,3 +116,15 @@ describe('simulate', () => {
     });
   });
 });
+
+describe('simulate', () => {
+  describe('with a secondary path that changes mid-run', () => {
+    it('should not call the Wiener figure a bound, and say why', () => {
+      const fixed = simulate(noiseScenario({ durationS: 2 }));
+      const moved = simulate(noiseScenario({ durationS: 2, faults: [{ kind: 'secondary-path-change', atS: 1, path: { delayMs: 6, gain: 0.8 } }] }));
+      expect(fixed.wienerBoundIsBound).toBe(true);
+      expect(moved.wienerBoundIsBound).toBe(false);
+      expect(moved.notes.wienerBound).toMatch(/secondary path changes during the run/);
+    });
+  });
+});
