@@ -675,7 +675,7 @@ export class AncbApp extends LitElement {
       const cal = live ? this.activeOutputCal : null;
       // the cap in dB SPL: peak SPL at the most sensitive calibrated frequency bounds every frequency in the range
       const capSpl = cal ? ` = at most ${fmtDb(d.ceilingDb + maxSensitivity(cal).db + SINE_CREST_DB)} dB SPL peak at the ear (${fmtHz(cal.minHz)} … ${fmtHz(cal.maxHz)})` : '';
-      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtLevel(d.maxTruePeakDb)} dBTP · cap ${fmtLevel(d.ceilingDb)} dBFS sample peak${capSpl}`);
+      this.setText('#true-peak', `output true peak (max, 4× oversampled): ${fmtLevel(d.maxTruePeakDb)} dBTP · cap ${fmtLevel(d.ceilingDb)} dBFS${capSpl}`);
       if (this.levelRunning) this.$<AncbLevelCheck>('ancb-level-check')?.showProgress(d.probeProgress);
       if (this.tone && this.calBusy === '') {
         // the tone stops by itself after TONE_MAX_S: the mode leaves 'tone' (4) without a stop from here
@@ -1223,7 +1223,7 @@ export class AncbApp extends LitElement {
                 .splNote=${outCal ? `at the ear, bound from the most sensitive reading (${fmtHz(maxSensitivity(outCal).hz)}); holds for ${fmtHz(outCal.minHz)} … ${fmtHz(outCal.maxHz)}` : ''}></ancb-meter>
               <ancb-output-limit .method=${this.settings.controller.outputConstraint ?? 'rescale'} .capDbfs=${this.settings.ceilingDbfs}
                 @ancb-output-constraint=${(e: CustomEvent<'rescale' | 'effort' | 'none'>) => void this.onSettings(new CustomEvent('ancb-settings', { detail: { ...this.settings, controller: { ...this.settings.controller, outputConstraint: e.detail } } }))}></ancb-output-limit>
-              <ancb-meter channel="gr" label="Limiter" unit="dB GR" min="0" max="24" note="gain reduction; the cap limits sample peaks, a true peak can read up to about 6 dB higher"></ancb-meter>
+              <ancb-meter channel="gr" label="Limiter" unit="dB GR" min="0" max="24" note="gain reduction of the limiter that holds the cap (its true peak is measured below)"></ancb-meter>
               <p class="small muted" id="true-peak"></p>
             </div>
           </div>

@@ -89,6 +89,10 @@ export class AncbControls extends LitElement {
     shared,
     formLayout,
     css`
+      /* a block of its own (two checkboxes and their hints): the whole row, so label/field pairs stay paired */
+      ancb-plant-options {
+        grid-column: 1 / -1;
+      }
       .pair input[type='number'] {
         width: 5.5rem;
         min-width: 0;
